@@ -1,0 +1,509 @@
+//! Checks of the samplers against published exact results, at a resolution and sample size the
+//! user chooses: "is the sampler accurate enough at my settings?".
+//!
+//! Three kinds of checks (DESIGN §7.3):
+//! * exact Loewner solutions (Kager, Nienhuis & Kadanoff, J. Stat. Phys. 2004): constant driving
+//!   gives the vertical segment `[0, 2i√t]`; `W = c√t` gives the straight ray at angle απ;
+//! * Schramm's left-passage formula (Schramm, Electron. Comm. Probab. 2001), estimated from
+//!   seeded samples with binomial standard errors;
+//! * pathwise convergence: the same Brownian paths at several resolutions, so the discretisation
+//!   error is seen without sampling noise.
+
+use crate::driving::{BrownianPath, DrivingFunction};
+use crate::error::{Error, Result};
+use crate::laws;
+use crate::loewner::{ChordalChain, ChordalStep, Method, StepKind};
+use crate::stats::{log_log_slope, Moments};
+use num_complex::Complex64;
+use rayon::prelude::*;
+use serde::Serialize;
+
+/// Settings of an audit run.
+#[derive(Debug, Clone, Serialize)]
+pub struct AuditSettings {
+    /// Seed of all random samples.
+    pub seed: u64,
+    /// Curves per κ for the statistical checks.
+    pub samples: usize,
+    /// Relative time step `Δt/t` of the geometric grid used for left passage.
+    pub ratio: f64,
+    /// First grid time (the first step is `[0, t_min]`).
+    pub t_min: f64,
+    /// Final capacity time of each curve for left passage (large, so that the curve has passed
+    /// the points; the remaining ambiguity is reported as a bias bound).
+    pub horizon: f64,
+    /// κ values for the left-passage checks (each in (0, 8)).
+    pub kappas: Vec<f64>,
+    /// Points `(x, y)` of H at which left passage is checked.
+    pub points: Vec<(f64, f64)>,
+    /// Step kind of the chains.
+    pub step: StepKind,
+    /// Number of equal steps for the exact-solution checks.
+    pub exact_steps: usize,
+    /// Deviations beyond this many standard errors count as failures.
+    pub sigma_limit: f64,
+}
+
+impl AuditSettings {
+    /// Defaults at a modest size (runs in seconds).
+    pub fn quick(seed: u64) -> Self {
+        AuditSettings {
+            seed,
+            samples: 2000,
+            ratio: 0.02,
+            t_min: 1e-4,
+            horizon: 1e4,
+            kappas: vec![2.0, 8.0 / 3.0, 4.0, 6.0],
+            points: vec![(1.0, 1.0), (-0.5, 1.0), (2.0, 0.5)],
+            step: StepKind::Tilted,
+            exact_steps: 256,
+            sigma_limit: 4.0,
+        }
+    }
+
+    /// Check every setting.
+    ///
+    /// # Errors
+    /// The first setting out of range.
+    pub fn validate(&self) -> Result<()> {
+        if self.samples < 10 {
+            return Err(Error::param("samples", self.samples, "an integer ≥ 10"));
+        }
+        if !(self.ratio.is_finite() && self.ratio > 0.0 && self.ratio <= 1.0) {
+            return Err(Error::param("ratio", self.ratio, "a number in (0, 1]"));
+        }
+        if !(self.horizon.is_finite() && self.horizon > self.t_min && self.t_min > 0.0) {
+            return Err(Error::param(
+                "horizon",
+                self.horizon,
+                format!("a finite number > t_min = {}", self.t_min),
+            ));
+        }
+        for &k in &self.kappas {
+            if !(k.is_finite() && k > 0.0 && k < 8.0) {
+                return Err(Error::param(
+                    "kappa",
+                    k,
+                    "a number in (0, 8) for left passage",
+                ));
+            }
+        }
+        for &(x, y) in &self.points {
+            if !(x.is_finite() && y.is_finite() && y > 0.0) {
+                return Err(Error::param(
+                    "at",
+                    format!("{x},{y}"),
+                    "a point x,y of the upper half-plane (y > 0)",
+                ));
+            }
+        }
+        if self.exact_steps < 2 || self.exact_steps > 1 << 16 {
+            return Err(Error::param("exact-steps", self.exact_steps, "2 to 65536"));
+        }
+        Ok(())
+    }
+}
+
+/// Outcome of one check.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Verdict {
+    /// Within tolerance.
+    Pass,
+    /// Outside tolerance.
+    Fail,
+    /// Reported for information (no tolerance applies).
+    Info,
+}
+
+/// One row of the audit table.
+#[derive(Debug, Clone, Serialize)]
+pub struct CheckRow {
+    /// What is checked.
+    pub check: String,
+    /// Published source of the exact value.
+    pub source: &'static str,
+    /// The estimate (or computed value, for deterministic checks).
+    pub estimate: f64,
+    /// Standard error of the estimate (statistical checks only).
+    pub std_error: Option<f64>,
+    /// The exact value.
+    pub exact: f64,
+    /// `(estimate − exact) / std_error` (statistical checks only).
+    pub deviation_sigma: Option<f64>,
+    /// A bound on the bias that the finite horizon or resolution can cause, when known.
+    pub bias_bound: Option<f64>,
+    /// The resolution used, in words.
+    pub resolution: String,
+    /// Pass, fail or information.
+    pub verdict: Verdict,
+}
+
+/// One line of a pathwise convergence study: an error measure at one resolution.
+#[derive(Debug, Clone, Serialize)]
+pub struct ConvergenceRow {
+    /// What is measured.
+    pub study: String,
+    /// Step kind.
+    pub step: StepKind,
+    /// Resolution parameter (number of steps, or `Δt/t`).
+    pub resolution: f64,
+    /// Error measure at this resolution (against the finest resolution of the same paths).
+    pub error: f64,
+    /// Standard error of the error measure, when it is an average over samples.
+    pub std_error: Option<f64>,
+    /// Observed order: slope of log error against log step size, over the whole study.
+    pub observed_order: f64,
+}
+
+/// Everything an audit produced.
+#[derive(Debug, Clone, Serialize)]
+pub struct AuditReport {
+    /// The settings.
+    pub settings: AuditSettings,
+    /// The check table.
+    pub checks: Vec<CheckRow>,
+    /// The convergence studies.
+    pub convergence: Vec<ConvergenceRow>,
+}
+
+impl AuditReport {
+    /// True when no check failed.
+    pub fn passed(&self) -> bool {
+        self.checks.iter().all(|c| c.verdict != Verdict::Fail)
+    }
+}
+
+const KNK: &str = "Kager, Nienhuis & Kadanoff, J. Stat. Phys. 2004";
+const SCHRAMM: &str = "Schramm, Electron. Comm. Probab. 2001";
+
+/// Run all checks. `progress` is called with the number of finished work units out of the total.
+///
+/// # Errors
+/// Invalid settings.
+pub fn run(settings: &AuditSettings, progress: &(dyn Fn(u64, u64) + Sync)) -> Result<AuditReport> {
+    settings.validate()?;
+    let mut checks = exact_checks(settings.exact_steps)?;
+    let total = (settings.kappas.len() * settings.samples) as u64;
+    let done = std::sync::atomic::AtomicU64::new(0);
+    for &kappa in &settings.kappas {
+        checks.extend(left_passage_checks(settings, kappa, &|n| {
+            let d = done.fetch_add(n, std::sync::atomic::Ordering::Relaxed) + n;
+            progress(d, total);
+        })?);
+    }
+    let mut convergence = ray_convergence()?;
+    convergence.extend(endpoint_convergence(settings.seed)?);
+    convergence.extend(left_passage_convergence(settings)?);
+    Ok(AuditReport {
+        settings: settings.clone(),
+        checks,
+        convergence,
+    })
+}
+
+/// Exact solutions: constant driving (both step kinds) and `W = c√t` (one tilted step is exact;
+/// the chain of `n` steps converges to it).
+///
+/// # Errors
+/// Only for an invalid number of steps.
+pub fn exact_checks(n: usize) -> Result<Vec<CheckRow>> {
+    let mut rows = Vec::new();
+    let t = 1.0;
+    let zero = DrivingFunction::from_fn(t, n, |_| 0.0)?;
+    for kind in [StepKind::Vertical, StepKind::Tilted] {
+        let chain = ChordalChain::new(&zero, kind);
+        let trace = chain.trace(Method::Direct)?;
+        let err = trace
+            .iter()
+            .zip(zero.times())
+            .map(|(z, &s)| (z - Complex64::new(0.0, 2.0 * s.sqrt())).norm())
+            .fold(0.0, f64::max);
+        rows.push(CheckRow {
+            check: format!(
+                "W ≡ 0: trace on [0, 2i√t], {} slits, max error",
+                kind.name()
+            ),
+            source: KNK,
+            estimate: err,
+            std_error: None,
+            exact: 0.0,
+            deviation_sigma: None,
+            bias_bound: None,
+            resolution: format!("{n} equal steps, t = 1"),
+            verdict: if err <= 1e-12 {
+                Verdict::Pass
+            } else {
+                Verdict::Fail
+            },
+        });
+    }
+    for alpha in [0.15f64, 0.3, 0.7] {
+        let c = 2.0 * (1.0 - 2.0 * alpha) / (alpha * (1.0 - alpha)).sqrt();
+        let step = ChordalStep::tilted(0.0, c * t.sqrt(), t);
+        let tip = step.tip();
+        let angle_err = (tip.arg() / std::f64::consts::PI - alpha).abs();
+        rows.push(CheckRow {
+            check: format!("W = c√t, α = {alpha}: angle of the one-step trace / π"),
+            source: KNK,
+            estimate: tip.arg() / std::f64::consts::PI,
+            std_error: None,
+            exact: alpha,
+            deviation_sigma: None,
+            bias_bound: None,
+            resolution: "1 tilted step (exact)".into(),
+            verdict: if angle_err <= 1e-12 {
+                Verdict::Pass
+            } else {
+                Verdict::Fail
+            },
+        });
+        for kind in [StepKind::Tilted, StepKind::Vertical] {
+            let d = DrivingFunction::from_fn(t, n, |s| c * s.sqrt())?;
+            let end = ChordalChain::new(&d, kind).trace_point(n);
+            let rel = (end - tip).norm() / tip.norm();
+            rows.push(CheckRow {
+                check: format!(
+                    "W = c√t, α = {alpha}: endpoint error / |γ(1)|, {} slits",
+                    kind.name()
+                ),
+                source: KNK,
+                estimate: rel,
+                std_error: None,
+                exact: 0.0,
+                deviation_sigma: None,
+                bias_bound: None,
+                resolution: format!("{n} equal steps (first-order scheme)"),
+                verdict: Verdict::Info,
+            });
+        }
+    }
+    Ok(rows)
+}
+
+/// Where a point ends up relative to the curve: +1 if the curve passes to its left (the point is
+/// on the right of the curve, `Re(g_T(z) − W_T) > 0`), and the probability that this changes
+/// after time T, given by Schramm's formula at `g_T(z) − W_T`.
+fn classify(chain: &ChordalChain, w_end: f64, kappa: f64, z: Complex64) -> (bool, f64) {
+    let g = chain.forward_map(chain.len(), z) - w_end;
+    let right = g.re > 0.0;
+    let residual = if g.im > 0.0 {
+        laws::schramm_left_passage(kappa, g.re, g.im)
+            .map(|h| h.min(1.0 - h))
+            .unwrap_or(0.0)
+    } else {
+        0.0
+    };
+    (right, residual)
+}
+
+fn left_passage_checks(
+    s: &AuditSettings,
+    kappa: f64,
+    progress: &(dyn Fn(u64) + Sync),
+) -> Result<Vec<CheckRow>> {
+    let points: Vec<Complex64> = s
+        .points
+        .iter()
+        .map(|&(x, y)| Complex64::new(x, y))
+        .collect();
+    // One sample: indicator and residual per point. Collected in index order: thread-independent.
+    let per_sample: Vec<Vec<(bool, f64)>> = (0..s.samples as u64)
+        .into_par_iter()
+        .map(|i| {
+            let path = BrownianPath::geometric(kappa, s.t_min, s.horizon, s.ratio, s.seed, i)
+                .expect("validated settings");
+            let chain = ChordalChain::new(path.driving(), s.step);
+            let w_end = *path.driving().values().last().unwrap_or(&0.0);
+            let r = points
+                .iter()
+                .map(|&z| classify(&chain, w_end, kappa, z))
+                .collect();
+            if i % 64 == 63 {
+                progress(64);
+            }
+            r
+        })
+        .collect();
+    let steps = ((s.horizon / s.t_min).ln() / (1.0 + s.ratio).ln()).ceil() as usize + 1;
+    let mut rows = Vec::new();
+    for (j, &(x, y)) in s.points.iter().enumerate() {
+        let hits: Moments = per_sample.iter().map(|v| v[j].0 as u8 as f64).collect();
+        let residual: Moments = per_sample.iter().map(|v| v[j].1).collect();
+        let p = hits.mean();
+        // Binomial standard error √(p(1−p)/n).
+        let se = (p * (1.0 - p) / hits.n as f64).sqrt().max(1e-300);
+        let exact = laws::schramm_left_passage(kappa, x, y)?;
+        let dev = (p - exact) / se;
+        rows.push(CheckRow {
+            check: format!("left passage, κ = {}, z = {x}{:+}i", fmt_kappa(kappa), y),
+            source: SCHRAMM,
+            estimate: p,
+            std_error: Some(se),
+            exact,
+            deviation_sigma: Some(dev),
+            bias_bound: Some(residual.mean()),
+            resolution: format!(
+                "{} curves; Δt/t = {}, {} steps, t ≤ {:e}, {} slits",
+                s.samples,
+                s.ratio,
+                steps,
+                s.horizon,
+                s.step.name()
+            ),
+            verdict: if dev.abs() <= s.sigma_limit {
+                Verdict::Pass
+            } else {
+                Verdict::Fail
+            },
+        });
+    }
+    Ok(rows)
+}
+
+/// κ written as a fraction when it is 8/3 or 16/3.
+pub fn fmt_kappa(k: f64) -> String {
+    for (num, den) in [(8, 3), (16, 3)] {
+        if (k - num as f64 / den as f64).abs() < 1e-12 {
+            return format!("{num}/{den}");
+        }
+    }
+    format!("{k}")
+}
+
+/// `W = c√t`, α = 0.3: relative endpoint error against the exact ray as the number of equal
+/// steps doubles, for both step kinds.
+fn ray_convergence() -> Result<Vec<ConvergenceRow>> {
+    let alpha: f64 = 0.3;
+    let c = 2.0 * (1.0 - 2.0 * alpha) / (alpha * (1.0 - alpha)).sqrt();
+    let tip = ChordalStep::tilted(0.0, c, 1.0).tip();
+    let ns: Vec<usize> = (4..=11).map(|p| 1usize << p).collect();
+    let mut rows = Vec::new();
+    for kind in [StepKind::Tilted, StepKind::Vertical] {
+        let errs: Vec<(f64, f64)> = ns
+            .iter()
+            .map(|&n| {
+                let d = DrivingFunction::from_fn(1.0, n, |s| c * s.sqrt()).expect("valid");
+                let end = ChordalChain::new(&d, kind).trace_point(n);
+                (1.0 / n as f64, (end - tip).norm() / tip.norm())
+            })
+            .collect();
+        let order = log_log_slope(&errs);
+        for (h, e) in errs {
+            rows.push(ConvergenceRow {
+                study: "W = c√t (α = 0.3): |γ_N(1) − exact| / |exact| vs N".into(),
+                step: kind,
+                resolution: (1.0 / h).round(),
+                error: e,
+                std_error: None,
+                observed_order: order,
+            });
+        }
+    }
+    Ok(rows)
+}
+
+/// Brownian driving, κ = 4, t = 1: the same 200 paths at N = 2^5 … 2^11 equal steps; the mean
+/// distance of the endpoint `γ(1)` from its value on the finest grid (2^13 steps).
+fn endpoint_convergence(seed: u64) -> Result<Vec<ConvergenceRow>> {
+    let fine_p = 13;
+    let paths = 200u64;
+    let mut rows = Vec::new();
+    for kind in [StepKind::Tilted, StepKind::Vertical] {
+        let per_path: Vec<Vec<f64>> = (0..paths)
+            .into_par_iter()
+            .map(|i| {
+                let path = BrownianPath::uniform(4.0, 1.0, 1 << fine_p, seed, 1_000_000 + i)
+                    .expect("valid");
+                let fine = ChordalChain::new(path.driving(), kind).trace_point(1 << fine_p);
+                (5..=11)
+                    .map(|p| {
+                        let d = path.driving().subsample(1 << (fine_p - p)).expect("valid");
+                        let n = d.steps();
+                        (ChordalChain::new(&d, kind).trace_point(n) - fine).norm()
+                    })
+                    .collect()
+            })
+            .collect();
+        let mut errs = Vec::new();
+        for (j, p) in (5..=11).enumerate() {
+            let m: Moments = per_path.iter().map(|v| v[j]).collect();
+            errs.push(((1u64 << p) as f64, m.mean(), m.std_error()));
+        }
+        let order = log_log_slope(&errs.iter().map(|e| (1.0 / e.0, e.1)).collect::<Vec<_>>());
+        for (n, e, se) in errs {
+            rows.push(ConvergenceRow {
+                study: "Brownian driving, κ = 4, t = 1: mean |γ_N(1) − γ_8192(1)| over 200 paths"
+                    .into(),
+                step: kind,
+                resolution: n,
+                error: e,
+                std_error: Some(se),
+                observed_order: order,
+            });
+        }
+    }
+    Ok(rows)
+}
+
+/// Left passage on the same paths at `Δt/t = r·2^j`: fraction of (curve, point) pairs whose
+/// side differs from the finest grid `Δt/t ≈ r/8`, at the first κ of the settings.
+fn left_passage_convergence(s: &AuditSettings) -> Result<Vec<ConvergenceRow>> {
+    let kappa = s.kappas.first().copied().unwrap_or(4.0);
+    let levels = 4usize; // finest, and coarser by factors 2, 4, 8 in the number of steps
+    let q_fine = (1.0 + s.ratio).powf(1.0 / 8.0) - 1.0;
+    let samples = s.samples.min(1000) as u64;
+    let points: Vec<Complex64> = s
+        .points
+        .iter()
+        .map(|&(x, y)| Complex64::new(x, y))
+        .collect();
+    let flips: Vec<Vec<f64>> = (0..samples)
+        .into_par_iter()
+        .map(|i| {
+            let path =
+                BrownianPath::geometric(kappa, s.t_min, s.horizon, q_fine, s.seed ^ 0x5eed, i)
+                    .expect("valid");
+            let side = |d: &DrivingFunction| -> Vec<bool> {
+                let chain = ChordalChain::new(d, s.step);
+                let w = *d.values().last().unwrap_or(&0.0);
+                points
+                    .iter()
+                    .map(|&z| classify(&chain, w, kappa, z).0)
+                    .collect()
+            };
+            let fine = side(path.driving());
+            (1..levels)
+                .map(|j| {
+                    let d = path.driving().subsample(1 << j).expect("valid");
+                    let coarse = side(&d);
+                    coarse.iter().zip(&fine).filter(|(a, b)| a != b).count() as f64
+                        / points.len() as f64
+                })
+                .collect()
+        })
+        .collect();
+    let mut errs = Vec::new();
+    for j in 1..levels {
+        let m: Moments = flips.iter().map(|v| v[j - 1]).collect();
+        let ratio = (1.0 + q_fine).powi(1 << j) - 1.0;
+        errs.push((ratio, m.mean(), m.std_error()));
+    }
+    let order = log_log_slope(&errs.iter().map(|e| (e.0, e.1)).collect::<Vec<_>>());
+    Ok(errs
+        .into_iter()
+        .map(|(r, e, se)| ConvergenceRow {
+            study: format!(
+                "left passage, κ = {}: fraction of sides that differ from Δt/t = {:.4} ({} curves)",
+                fmt_kappa(kappa),
+                q_fine,
+                samples
+            ),
+            step: s.step,
+            resolution: r,
+            error: e,
+            std_error: Some(se),
+            observed_order: order,
+        })
+        .collect())
+}

@@ -1,0 +1,56 @@
+//! Helpers shared by the commands: seeds, progress bars, notes on stderr, file writing.
+
+use super::args::Global;
+use super::Failure;
+use indicatif::{ProgressBar, ProgressStyle};
+use std::path::{Path, PathBuf};
+
+/// The seed to use: the user's, or a fresh one (reported on stderr unless quiet).
+pub fn resolve_seed(g: &Global) -> u64 {
+    match g.seed {
+        Some(s) => s,
+        None => {
+            let s = sleek::rng::fresh_seed();
+            note(g, &format!("no --seed given; using --seed {s}"));
+            s
+        }
+    }
+}
+
+/// A note on stderr (hidden with --quiet).
+pub fn note(g: &Global, msg: &str) {
+    if !g.quiet {
+        eprintln!("sleek: {msg}");
+    }
+}
+
+/// A warning on stderr (always shown).
+pub fn warn(msg: &str) {
+    eprintln!("sleek: warning: {msg}");
+}
+
+/// A progress bar on stderr: hidden with --quiet or when stderr is not a terminal.
+pub fn progress(g: &Global, len: u64, what: &str) -> ProgressBar {
+    if g.quiet {
+        return ProgressBar::hidden();
+    }
+    let pb = ProgressBar::new(len);
+    pb.set_style(
+        ProgressStyle::with_template("{msg:>12} [{bar:30}] {pos}/{len} ({per_sec}, eta {eta})")
+            .unwrap_or_else(|_| ProgressStyle::default_bar())
+            .progress_chars("=> "),
+    );
+    pb.set_message(what.to_string());
+    pb
+}
+
+/// Write bytes to a file atomically, with the path in any error.
+pub fn write_file(path: &Path, bytes: &[u8]) -> Result<(), Failure> {
+    sleek::io::write_atomic(path, bytes)
+        .map_err(|e| Failure::Runtime(format!("cannot write {}: {e}", path.display())))
+}
+
+/// `dir/name` when an output folder is given.
+pub fn in_out(g: &Global, name: &str) -> Option<PathBuf> {
+    g.out.as_ref().map(|d| d.join(name))
+}

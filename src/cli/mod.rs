@@ -1,0 +1,80 @@
+//! Command-line interface: argument definitions (clap derive), dispatch and error reporting.
+//!
+//! Exit codes: 0 success, 1 runtime or I/O failure, 2 usage error (bad option or value).
+
+mod args;
+mod audit_cmd;
+mod common;
+mod laws_cmd;
+mod tour;
+mod trace_cmd;
+
+use args::{Cli, Command};
+use clap::Parser;
+use std::process::ExitCode;
+
+/// A failure, classified for the exit code.
+pub enum Failure {
+    /// Bad options or values (exit 2).
+    Usage(String),
+    /// Something failed while running (exit 1).
+    Runtime(String),
+}
+
+impl From<sleek::Error> for Failure {
+    fn from(e: sleek::Error) -> Self {
+        match e {
+            sleek::Error::InvalidParameter { .. } | sleek::Error::Unavailable(_) => {
+                Failure::Usage(e.to_string())
+            }
+            _ => Failure::Runtime(e.to_string()),
+        }
+    }
+}
+
+impl From<anyhow::Error> for Failure {
+    fn from(e: anyhow::Error) -> Self {
+        Failure::Runtime(format!("{e:#}"))
+    }
+}
+
+/// Entry point of the binary.
+pub fn main() -> ExitCode {
+    let cli = match Cli::try_parse() {
+        Ok(c) => c,
+        Err(e) => {
+            use clap::error::ErrorKind;
+            if matches!(
+                e.kind(),
+                ErrorKind::DisplayHelp
+                    | ErrorKind::DisplayVersion
+                    | ErrorKind::DisplayHelpOnMissingArgumentOrSubcommand
+            ) {
+                let _ = e.print();
+                return ExitCode::SUCCESS;
+            }
+            let text = e.render().to_string();
+            let first = text.lines().next().unwrap_or("invalid arguments");
+            let first = first.strip_prefix("error: ").unwrap_or(first);
+            eprintln!("sleek: error: {first} (see 'sleek --help')");
+            return ExitCode::from(2);
+        }
+    };
+    let result = match &cli.command {
+        None => tour::run(&cli.global),
+        Some(Command::Trace(a)) => trace_cmd::run(&cli.global, a),
+        Some(Command::Laws(a)) => laws_cmd::run(&cli.global, a),
+        Some(Command::Audit(a)) => audit_cmd::run(&cli.global, a),
+    };
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(Failure::Usage(m)) => {
+            eprintln!("sleek: error: {m}");
+            ExitCode::from(2)
+        }
+        Err(Failure::Runtime(m)) => {
+            eprintln!("sleek: error: {m}");
+            ExitCode::from(1)
+        }
+    }
+}

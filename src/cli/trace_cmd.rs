@@ -1,0 +1,371 @@
+//! `sleek trace`: chordal SLE_κ curves, or the trace of a given driving function.
+
+use super::args::{DomainArg, Global, MethodArg, StepArg, TraceArgs};
+use super::common::{in_out, note, progress, resolve_seed, warn, write_file};
+use super::Failure;
+use rayon::prelude::*;
+use serde::Serialize;
+use sleek::audit::fmt_kappa;
+use sleek::domain::ChordalDomain;
+use sleek::io::{write_trace_csv, write_trace_json, TraceSettings};
+use sleek::loewner::{ChordalChain, Method, StepKind};
+use sleek::plot::{PlaneFigure, Polyline};
+use sleek::sle::{max_spacing, ChordalCurve, ChordalSle, Resolution, SpacingRule};
+use std::path::Path;
+
+pub fn step_kind(s: StepArg) -> StepKind {
+    match s {
+        StepArg::Tilted => StepKind::Tilted,
+        StepArg::Vertical => StepKind::Vertical,
+    }
+}
+
+pub fn method(m: MethodArg) -> Method {
+    match m {
+        MethodArg::Direct => Method::Direct,
+        MethodArg::Fast => Method::Fast,
+    }
+}
+
+pub fn domain(d: DomainArg) -> ChordalDomain {
+    match d {
+        DomainArg::HalfPlane => ChordalDomain::HalfPlane,
+        DomainArg::Disk => ChordalDomain::Disk,
+        DomainArg::Strip => ChordalDomain::Strip,
+    }
+}
+
+/// Curves and the settings that made them, ready for export.
+pub struct TraceRun {
+    pub curves: Vec<ChordalCurve>,
+    pub settings: TraceSettings,
+    pub domain: ChordalDomain,
+}
+
+#[derive(Serialize)]
+struct CurveSummary {
+    curve: u64,
+    samples: usize,
+    max_spacing_in_h: f64,
+    target_met: bool,
+    refinement_passes: usize,
+    end_x: f64,
+    end_y: f64,
+    height: f64,
+}
+
+#[derive(Serialize)]
+struct Summary<'a> {
+    format: &'static str,
+    format_version: u32,
+    sleek_version: &'static str,
+    #[serde(flatten)]
+    settings: &'a TraceSettings,
+    curves: Vec<CurveSummary>,
+}
+
+fn resolution_of(a: &TraceArgs, time: f64) -> Resolution {
+    if let Some(n) = a.points {
+        return Resolution::Points(n as usize);
+    }
+    let relative = match (a.spacing, a.spacing_rel) {
+        (None, None) => Some(0.05),
+        (_, r) => r,
+    };
+    Resolution::Spacing(SpacingRule {
+        absolute: a.spacing,
+        relative,
+        inner_radius: a.inner_radius.unwrap_or(2e-2 * time.sqrt()),
+        base_steps: a.base_steps.min(1 << 20) as usize,
+        max_points: a.max_points.min(usize::MAX as u64) as usize,
+    })
+}
+
+/// Describe a resolution in words.
+pub fn describe_resolution(r: &Resolution) -> String {
+    match r {
+        Resolution::Points(n) => format!("{n} equal capacity steps"),
+        Resolution::Spacing(s) => {
+            let mut parts = Vec::new();
+            if let Some(a) = s.absolute {
+                parts.push(format!("spacing ≤ {a}"));
+            }
+            if let Some(f) = s.relative {
+                parts.push(format!(
+                    "spacing ≤ {f}·max(|z − γ(0)|, {:.3e})",
+                    s.inner_radius
+                ));
+            }
+            format!(
+                "{} (bridge refinement of {} equal steps, at most {} points)",
+                parts.join(" and "),
+                s.base_steps,
+                s.max_points
+            )
+        }
+    }
+}
+
+/// Sample (or trace) the curves of a `trace` invocation.
+pub fn sample(g: &Global, a: &TraceArgs) -> Result<TraceRun, Failure> {
+    let step = step_kind(a.step);
+    let meth = method(a.method);
+    let dom = domain(a.domain);
+    if let Some(path) = &a.driving {
+        if a.count > 1 {
+            return Err(Failure::Usage(
+                "--count cannot exceed 1 with --driving (a given driving function has one trace)"
+                    .into(),
+            ));
+        }
+        let file = std::fs::File::open(path).map_err(|e| {
+            Failure::Runtime(format!("cannot read --driving {}: {e}", path.display()))
+        })?;
+        let d = sleek::io::read_driving(std::io::BufReader::new(file))
+            .map_err(|e| Failure::Runtime(format!("--driving {}: {e}", path.display())))?;
+        meth.check_available()?;
+        let chain = ChordalChain::new(&d, step);
+        let points = chain.trace(meth)?;
+        let settings = TraceSettings {
+            kappa: None,
+            seed: None,
+            time: d.final_time(),
+            step: step.name(),
+            method: meth.name(),
+            resolution: format!("{} steps of the given driving function", d.steps()),
+            domain: dom.name(),
+            driving_source: path.display().to_string(),
+        };
+        return Ok(TraceRun {
+            curves: vec![ChordalCurve {
+                index: 0,
+                max_spacing: max_spacing(&points),
+                driving: d,
+                points,
+                target_met: true,
+                passes: 1,
+            }],
+            settings,
+            domain: dom,
+        });
+    }
+    let kappa = a
+        .kappa
+        .ok_or_else(|| Failure::Usage("--kappa is required".into()))?;
+    if kappa > 8.0 {
+        warn(&format!(
+            "κ = {kappa} > 8: SLE_κ is space-filling; the discretised trace fills the plane only \
+             down to its spacing, and the figure shows a dense scribble"
+        ));
+    }
+    let time = a.time.unwrap_or(1.0);
+    let seed = resolve_seed(g);
+    let res = resolution_of(a, time);
+    let sampler = ChordalSle::new(kappa, time, res, step, meth)?;
+    let pb = progress(g, a.count, "curves");
+    let curves: Vec<ChordalCurve> = (0..a.count)
+        .into_par_iter()
+        .map(|i| {
+            let c = sampler.sample(seed, i);
+            pb.inc(1);
+            c
+        })
+        .collect();
+    pb.finish_and_clear();
+    let settings = TraceSettings {
+        kappa: Some(kappa),
+        seed: Some(seed),
+        time,
+        step: step.name(),
+        method: meth.name(),
+        resolution: describe_resolution(&res),
+        domain: dom.name(),
+        driving_source: "brownian".into(),
+    };
+    Ok(TraceRun {
+        curves,
+        settings,
+        domain: dom,
+    })
+}
+
+/// The figure of a run.
+pub fn figure(run: &TraceRun) -> PlaneFigure {
+    let s = &run.settings;
+    let title = match s.kappa {
+        Some(k) => format!("chordal SLE_κ, κ = {}", fmt_kappa(k)),
+        None => "trace of the given driving function".to_string(),
+    };
+    let n_pts: usize = run.curves.iter().map(|c| c.points.len()).sum();
+    let worst = run.curves.iter().map(|c| c.max_spacing).fold(0.0, f64::max);
+    let mut caption = vec![
+        format!(
+            "{}; seed {}; {} curve{}; t = {} (hcap {})",
+            run.domain.describe(),
+            s.seed.map(|x| x.to_string()).unwrap_or_else(|| "—".into()),
+            run.curves.len(),
+            if run.curves.len() == 1 { "" } else { "s" },
+            s.time,
+            2.0 * s.time
+        ),
+        format!(
+            "{} slits, {} method; {}; {} points, max spacing in H {:.2e}",
+            s.step, s.method, s.resolution, n_pts, worst
+        ),
+    ];
+    if run.curves.iter().any(|c| !c.target_met) {
+        caption.push(
+            "warning: the spacing target was not met on every curve (see --max-points)".into(),
+        );
+    }
+    PlaneFigure {
+        title,
+        caption,
+        curves: run
+            .curves
+            .iter()
+            .map(|c| Polyline {
+                points: c.points.iter().map(|z| run.domain.map(*z)).collect(),
+                label: (run.curves.len() > 1 && run.curves.len() <= 12)
+                    .then(|| format!("curve {}", c.index)),
+            })
+            .collect(),
+        domain: run.domain,
+        view: None,
+    }
+}
+
+/// Write the exports a run asked for.
+pub fn export(
+    run: &TraceRun,
+    csv: Option<&Path>,
+    json: Option<&Path>,
+    plot: Option<&Path>,
+) -> Result<Vec<String>, Failure> {
+    let mut written = Vec::new();
+    if let Some(p) = csv {
+        let mut buf = Vec::new();
+        write_trace_csv(&mut buf, &run.curves, run.domain)?;
+        write_file(p, &buf)?;
+        written.push(p.display().to_string());
+    }
+    if let Some(p) = json {
+        let mut buf = Vec::new();
+        write_trace_json(&mut buf, &run.curves, &run.settings, run.domain)?;
+        write_file(p, &buf)?;
+        written.push(p.display().to_string());
+    }
+    if let Some(p) = plot {
+        figure(run).draw(p)?;
+        written.push(p.display().to_string());
+    }
+    Ok(written)
+}
+
+pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
+    if let Some(p) = &a.plot {
+        let ext = p.extension().map(|e| e.to_string_lossy().to_lowercase());
+        if !matches!(ext.as_deref(), Some("svg") | Some("png")) {
+            return Err(Failure::Usage(format!(
+                "--plot {}: the file name must end in .svg or .png",
+                p.display()
+            )));
+        }
+    }
+    let run = sample(g, a)?;
+    let unmet: Vec<&ChordalCurve> = run.curves.iter().filter(|c| !c.target_met).collect();
+    if !unmet.is_empty() {
+        warn(&format!(
+            "spacing target not met on {} of {} curves (reached max spacing {:.3e}); raise \
+             --max-points or loosen --spacing/--spacing-rel",
+            unmet.len(),
+            run.curves.len(),
+            unmet.iter().map(|c| c.max_spacing).fold(0.0, f64::max)
+        ));
+    }
+    // Exports first: nothing computed is lost if printing fails.
+    let mut written = export(
+        &run,
+        a.export_csv.as_deref(),
+        a.export_json.as_deref(),
+        a.plot.as_deref(),
+    )?;
+    if g.out.is_some() {
+        written.extend(export(
+            &run,
+            in_out(g, "trace.csv").as_deref(),
+            in_out(g, "trace.json").as_deref(),
+            in_out(g, "trace.svg").as_deref(),
+        )?);
+    }
+    let summaries: Vec<CurveSummary> = run
+        .curves
+        .iter()
+        .map(|c| {
+            let end = run
+                .domain
+                .map(*c.points.last().expect("at least one point"));
+            CurveSummary {
+                curve: c.index,
+                samples: c.points.len(),
+                max_spacing_in_h: c.max_spacing,
+                target_met: c.target_met,
+                refinement_passes: c.passes,
+                end_x: end.re,
+                end_y: end.im,
+                height: c.points.iter().map(|z| z.im).fold(0.0, f64::max),
+            }
+        })
+        .collect();
+    if g.json {
+        let s = Summary {
+            format: "sleek/trace-summary",
+            format_version: sleek::io::FORMAT_VERSION,
+            sleek_version: env!("CARGO_PKG_VERSION"),
+            settings: &run.settings,
+            curves: summaries,
+        };
+        println!(
+            "{}",
+            serde_json::to_string_pretty(&s).map_err(|e| Failure::Runtime(e.to_string()))?
+        );
+    } else {
+        let s = &run.settings;
+        println!(
+            "{}: t = {} (hcap {}), {} slits, {} method",
+            match s.kappa {
+                Some(k) => format!(
+                    "chordal SLE_κ in H, κ = {}, seed {}",
+                    fmt_kappa(k),
+                    s.seed.unwrap_or(0)
+                ),
+                None => format!("trace of {}", s.driving_source),
+            },
+            s.time,
+            2.0 * s.time,
+            s.step,
+            s.method
+        );
+        println!("resolution: {}", s.resolution);
+        println!(
+            "{:>6}  {:>8}  {:>12}  {:>7}  {:>26}  {:>8}",
+            "curve", "points", "max spacing", "target", "end point (in domain)", "height"
+        );
+        for c in &summaries {
+            println!(
+                "{:>6}  {:>8}  {:>12.3e}  {:>7}  {:>12.5} {:>+12.5}i  {:>8.4}",
+                c.curve,
+                c.samples,
+                c.max_spacing_in_h,
+                if c.target_met { "met" } else { "NOT met" },
+                c.end_x,
+                c.end_y,
+                c.height
+            );
+        }
+    }
+    for w in written {
+        note(g, &format!("wrote {w}"));
+    }
+    Ok(())
+}
