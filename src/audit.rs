@@ -25,8 +25,13 @@ pub struct AuditSettings {
     pub seed: u64,
     /// Curves per κ for the statistical checks.
     pub samples: usize,
-    /// Relative time step `Δt/t` of the geometric grid used for left passage.
+    /// Relative time step `Δt/t` of the geometric base grid used for left passage (steps are
+    /// then bisected wherever a point needs it, see `point_step`).
     pub ratio: f64,
+    /// Point-adaptive step bound ε: a step is bisected (Brownian bridge) until
+    /// `2Δt ≤ ε |g(z) − W|²` for every undecided point z, i.e. until no point's image moves by
+    /// more than about ε of its distance to the driving point in one step.
+    pub point_step: f64,
     /// First grid time (the first step is `[0, t_min]`).
     pub t_min: f64,
     /// Final capacity time of each curve for left passage (large, so that the curve has passed
@@ -50,10 +55,11 @@ impl AuditSettings {
         AuditSettings {
             seed,
             samples: 2000,
-            ratio: 0.02,
+            ratio: 0.1,
+            point_step: 0.1,
             t_min: 1e-4,
             horizon: 1e4,
-            kappas: vec![2.0, 8.0 / 3.0, 4.0, 6.0],
+            kappas: vec![2.0, 8.0 / 3.0, 4.0],
             points: vec![(1.0, 1.0), (-0.5, 1.0), (2.0, 0.5)],
             step: StepKind::Tilted,
             exact_steps: 256,
@@ -71,6 +77,13 @@ impl AuditSettings {
         }
         if !(self.ratio.is_finite() && self.ratio > 0.0 && self.ratio <= 1.0) {
             return Err(Error::param("ratio", self.ratio, "a number in (0, 1]"));
+        }
+        if !(self.point_step.is_finite() && self.point_step > 0.0 && self.point_step <= 1.0) {
+            return Err(Error::param(
+                "point-step",
+                self.point_step,
+                "a number in (0, 1]",
+            ));
         }
         if !(self.horizon.is_finite() && self.horizon > self.t_min && self.t_min > 0.0) {
             return Err(Error::param(
@@ -281,20 +294,56 @@ pub fn exact_checks(n: usize) -> Result<Vec<CheckRow>> {
     Ok(rows)
 }
 
-/// Where a point ends up relative to the curve: +1 if the curve passes to its left (the point is
-/// on the right of the curve, `Re(g_T(z) − W_T) > 0`), and the probability that this changes
-/// after time T, given by Schramm's formula at `g_T(z) − W_T`.
-fn classify(chain: &ChordalChain, w_end: f64, kappa: f64, z: Complex64) -> (bool, f64) {
-    let g = chain.forward_map(chain.len(), z) - w_end;
-    let right = g.re > 0.0;
-    let residual = if g.im > 0.0 {
-        laws::schramm_left_passage(kappa, g.re, g.im)
+/// Deepest bisection of a base step in the point-adaptive walk.
+const MAX_POINT_LEVEL: u8 = 30;
+
+/// Flow points forward through one sampled curve, `z ↦ g_T(z) − W_T`, bisecting steps where a
+/// point needs it (see [`AuditSettings::point_step`]). Points whose image is already on (or
+/// within 1e-9 relative of) the real line are decided and no longer drive the refinement.
+/// Returns the images and the number of steps used.
+pub fn flow_points(
+    path: &BrownianPath,
+    step: StepKind,
+    points: &[Complex64],
+    eps: f64,
+) -> (Vec<Complex64>, usize) {
+    let mut g = points.to_vec();
+    let mut w_last = 0.0;
+    let n = path.walk_adaptive(MAX_POINT_LEVEL, |t0, t1, w0, w1, last| {
+        let dt = t1 - t0;
+        if !last {
+            for z in &g {
+                if z.im <= 1e-9 * (z.re - w0).abs() {
+                    continue;
+                }
+                let d = (z - w0).norm_sqr().min((z - w1).norm_sqr());
+                if 2.0 * dt > eps * d {
+                    return false;
+                }
+            }
+        }
+        let s = ChordalStep::new(step, w0, w1, dt);
+        for z in g.iter_mut() {
+            *z = s.forward(*z);
+        }
+        w_last = w1;
+        true
+    });
+    (g.into_iter().map(|z| z - w_last).collect(), n)
+}
+
+/// The side of the curve a point ends on, from `Z = g_T(z) − W_T`: true when the curve passes
+/// to its left (`Re Z > 0`); and the probability that this could still change after T, given
+/// by Schramm's formula at Z.
+fn side(kappa: f64, z: Complex64) -> (bool, f64) {
+    let residual = if z.im > 0.0 {
+        laws::schramm_left_passage(kappa, z.re, z.im)
             .map(|h| h.min(1.0 - h))
             .unwrap_or(0.0)
     } else {
         0.0
     };
-    (right, residual)
+    (z.re > 0.0, residual)
 }
 
 fn left_passage_checks(
@@ -308,24 +357,20 @@ fn left_passage_checks(
         .map(|&(x, y)| Complex64::new(x, y))
         .collect();
     // One sample: indicator and residual per point. Collected in index order: thread-independent.
-    let per_sample: Vec<Vec<(bool, f64)>> = (0..s.samples as u64)
+    let per_sample: Vec<(Vec<(bool, f64)>, usize)> = (0..s.samples as u64)
         .into_par_iter()
         .map(|i| {
             let path = BrownianPath::geometric(kappa, s.t_min, s.horizon, s.ratio, s.seed, i)
                 .expect("validated settings");
-            let chain = ChordalChain::new(path.driving(), s.step);
-            let w_end = *path.driving().values().last().unwrap_or(&0.0);
-            let r = points
-                .iter()
-                .map(|&z| classify(&chain, w_end, kappa, z))
-                .collect();
+            let (images, n) = flow_points(&path, s.step, &points, s.point_step);
             if i % 64 == 63 {
                 progress(64);
             }
-            r
+            (images.into_iter().map(|z| side(kappa, z)).collect(), n)
         })
         .collect();
-    let steps = ((s.horizon / s.t_min).ln() / (1.0 + s.ratio).ln()).ceil() as usize + 1;
+    let steps: Moments = per_sample.iter().map(|v| v.1 as f64).collect();
+    let per_sample: Vec<Vec<(bool, f64)>> = per_sample.into_iter().map(|v| v.0).collect();
     let mut rows = Vec::new();
     for (j, &(x, y)) in s.points.iter().enumerate() {
         let hits: Moments = per_sample.iter().map(|v| v[j].0 as u8 as f64).collect();
@@ -344,12 +389,12 @@ fn left_passage_checks(
             deviation_sigma: Some(dev),
             bias_bound: Some(residual.mean()),
             resolution: format!(
-                "{} curves; Δt/t = {}, {} steps, t ≤ {:e}, {} slits",
+                "{} curves to t = {:e}; {} slits; 2Δt ≤ {}·|g(z) − W|² (mean {:.0} steps)",
                 s.samples,
-                s.ratio,
-                steps,
                 s.horizon,
-                s.step.name()
+                s.step.name(),
+                s.point_step,
+                steps.mean()
             ),
             verdict: if dev.abs() <= s.sigma_limit {
                 Verdict::Pass
@@ -446,12 +491,13 @@ fn endpoint_convergence(seed: u64) -> Result<Vec<ConvergenceRow>> {
     Ok(rows)
 }
 
-/// Left passage on the same paths at `Δt/t = r·2^j`: fraction of (curve, point) pairs whose
-/// side differs from the finest grid `Δt/t ≈ r/8`, at the first κ of the settings.
+/// Left passage on the same paths at point-step bounds ε = 8ε₀, 4ε₀, 2ε₀ against ε₀ = ε/4:
+/// the fraction of (curve, point) pairs whose side differs from the finest walk, at the first κ
+/// of the settings. The walks bisect with the same bridge normals, so they follow one path.
 fn left_passage_convergence(s: &AuditSettings) -> Result<Vec<ConvergenceRow>> {
     let kappa = s.kappas.first().copied().unwrap_or(4.0);
-    let levels = 4usize; // finest, and coarser by factors 2, 4, 8 in the number of steps
-    let q_fine = (1.0 + s.ratio).powf(1.0 / 8.0) - 1.0;
+    let finest = s.point_step / 4.0;
+    let factors = [8.0, 4.0, 2.0];
     let samples = s.samples.min(1000) as u64;
     let points: Vec<Complex64> = s
         .points
@@ -462,21 +508,20 @@ fn left_passage_convergence(s: &AuditSettings) -> Result<Vec<ConvergenceRow>> {
         .into_par_iter()
         .map(|i| {
             let path =
-                BrownianPath::geometric(kappa, s.t_min, s.horizon, q_fine, s.seed ^ 0x5eed, i)
+                BrownianPath::geometric(kappa, s.t_min, s.horizon, s.ratio, s.seed ^ 0x5eed, i)
                     .expect("valid");
-            let side = |d: &DrivingFunction| -> Vec<bool> {
-                let chain = ChordalChain::new(d, s.step);
-                let w = *d.values().last().unwrap_or(&0.0);
-                points
-                    .iter()
-                    .map(|&z| classify(&chain, w, kappa, z).0)
+            let sides = |eps: f64| -> Vec<bool> {
+                flow_points(&path, s.step, &points, eps)
+                    .0
+                    .into_iter()
+                    .map(|z| z.re > 0.0)
                     .collect()
             };
-            let fine = side(path.driving());
-            (1..levels)
-                .map(|j| {
-                    let d = path.driving().subsample(1 << j).expect("valid");
-                    let coarse = side(&d);
+            let fine = sides(finest);
+            factors
+                .iter()
+                .map(|&f| {
+                    let coarse = sides(finest * f);
                     coarse.iter().zip(&fine).filter(|(a, b)| a != b).count() as f64
                         / points.len() as f64
                 })
@@ -484,23 +529,22 @@ fn left_passage_convergence(s: &AuditSettings) -> Result<Vec<ConvergenceRow>> {
         })
         .collect();
     let mut errs = Vec::new();
-    for j in 1..levels {
-        let m: Moments = flips.iter().map(|v| v[j - 1]).collect();
-        let ratio = (1.0 + q_fine).powi(1 << j) - 1.0;
-        errs.push((ratio, m.mean(), m.std_error()));
+    for (j, &f) in factors.iter().enumerate() {
+        let m: Moments = flips.iter().map(|v| v[j]).collect();
+        errs.push((finest * f, m.mean(), m.std_error()));
     }
     let order = log_log_slope(&errs.iter().map(|e| (e.0, e.1)).collect::<Vec<_>>());
     Ok(errs
         .into_iter()
-        .map(|(r, e, se)| ConvergenceRow {
+        .map(|(eps, e, se)| ConvergenceRow {
             study: format!(
-                "left passage, κ = {}: fraction of sides that differ from Δt/t = {:.4} ({} curves)",
+                "left passage, κ = {}: fraction of sides that differ from the walk with ε = {} ({} curves)",
                 fmt_kappa(kappa),
-                q_fine,
+                finest,
                 samples
             ),
             step: s.step,
-            resolution: r,
+            resolution: eps,
             error: e,
             std_error: Some(se),
             observed_order: order,

@@ -349,6 +349,57 @@ impl BrownianPath {
         }
     }
 
+    /// Walk the base grid in time order, bisecting steps on demand: `visit(t0, t1, w0, w1, last)`
+    /// is called for a candidate step and returns `true` when it accepts (and uses) the step, or
+    /// `false` to have it split in two at its midpoint, drawn from the Brownian bridge with the
+    /// same dyadic-address normals as [`BrownianPath::refine_steps`] (so the walk sees the same
+    /// path). With `last = true` the step is at `max_level` and must be accepted.
+    /// Returns the number of accepted steps.
+    pub fn walk_adaptive(
+        &self,
+        max_level: u8,
+        mut visit: impl FnMut(f64, f64, f64, f64, bool) -> bool,
+    ) -> usize {
+        let max_level = max_level.min(MAX_BISECTION_LEVEL);
+        let (t, w) = (&self.base_t, self.base_values());
+        let mut accepted = 0;
+        // Stack of (level, num, t0, t1, w0, w1), right halves pushed first.
+        let mut stack: Vec<(u8, u64, f64, f64, f64, f64)> = Vec::new();
+        for k in 0..t.len() - 1 {
+            stack.push((0, 0, t[k], t[k + 1], w[k], w[k + 1]));
+            while let Some((level, num, t0, t1, w0, w1)) = stack.pop() {
+                let last = level >= max_level;
+                if visit(t0, t1, w0, w1, last) || last {
+                    accepted += 1;
+                    continue;
+                }
+                let lv = level + 1;
+                let mid_num = 2 * num + 1;
+                let z = self.bridge_normal(k as u32, lv, mid_num);
+                let wm = 0.5 * (w0 + w1) + 0.5 * (self.kappa * (t1 - t0)).sqrt() * z;
+                let tb0 = t[k];
+                let tm = tb0 + (t[k + 1] - tb0) * (mid_num as f64 / (1u64 << lv) as f64);
+                stack.push((lv, mid_num, tm, t1, wm, w1));
+                stack.push((lv, 2 * num, t0, tm, w0, wm));
+            }
+        }
+        accepted
+    }
+
+    /// Values of the path on its base grid (before any refinement).
+    fn base_values(&self) -> Vec<f64> {
+        let mut out = Vec::with_capacity(self.base_t.len());
+        let (t, w) = (self.driving.times(), self.driving.values());
+        let mut i = 0;
+        for &tb in &self.base_t {
+            while t[i] != tb {
+                i += 1;
+            }
+            out.push(w[i]);
+        }
+        out
+    }
+
     /// Bisection depth already used by step `k` (0 on the base grid).
     pub fn depth(&self, k: usize) -> u8 {
         let (_, level, _) = normalise(self.addr[k], self.addr[k + 1]);

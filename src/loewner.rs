@@ -269,87 +269,94 @@ impl ChordalStep {
 /// forward tilted-slit map in coordinates where the slit is rooted at 0 and its preimage is
 /// `[−x_l, x_r]`.
 fn tilted_forward(v: Complex64, alpha: f64, xl: f64, xr: f64, len: f64) -> Complex64 {
-    let scale = xl + xr;
-    let lv = v.ln();
+    let shift = (1.0 - alpha) * xl - alpha * xr;
+    let dt = xl * xr / 4.0; // x_l x_r = 4Δt
+    let far_guess = |v: Complex64| v - shift + 2.0 * dt / v;
     if v.norm() > 4.0 * len {
-        // Far field: u ≈ v − shift + (hcap term)/v, shift = (1−α)x_l − αx_r.
-        let shift = (1.0 - alpha) * xl - alpha * xr;
-        let dt = xl * xr / 4.0; // x_l x_r = 4Δt
-        let guess = v - shift + 2.0 * dt / v;
-        if let Some(u) = newton_log(lv, guess, alpha, xl, xr, scale) {
+        if let Some(u) = newton_log(v.ln(), far_guess(v), alpha, xl, xr) {
             return u;
         }
     }
-    // Continuation along the ray arg(v) = const, from far away (where the far-field guess is
-    // excellent) down to |v|; the ray never meets the slit unless v lies on it.
     let r_target = v.norm();
-    let dir = if r_target > 0.0 {
-        v / r_target
-    } else {
-        Complex64::new(0.0, 1.0)
-    };
-    let shift = (1.0 - alpha) * xl - alpha * xr;
-    let dt = xl * xr / 4.0;
-    let mut r = (16.0 * len).max(r_target);
-    let mut u = dir * r - shift + 2.0 * dt / (dir * r);
-    loop {
-        let target = (dir * r).ln();
-        u = newton_log(target, u, alpha, xl, xr, scale).unwrap_or(u);
-        if r <= r_target {
-            break;
-        }
-        r = (r * 0.8).max(r_target);
-    }
     if r_target == 0.0 {
         // The base of the slit: both ends of the preimage interval map there.
         return Complex64::new(-xl, 0.0);
     }
-    u
+    // Continuation along the ray arg(v) = const, from far away (where the far-field guess is
+    // excellent) down to |v|; the ray never meets the slit unless v lies on it. The radial step
+    // shrinks whenever Newton's method fails from the previous solution.
+    let dir = v / r_target;
+    let mut r = (16.0 * len).max(2.0 * r_target);
+    let mut u = far_guess(dir * r);
+    let mut factor: f64 = 0.7;
+    loop {
+        let next_r = (r * factor).max(r_target);
+        match newton_log((dir * next_r).ln(), u, alpha, xl, xr) {
+            Some(next_u) => {
+                u = next_u;
+                r = next_r;
+                if r <= r_target {
+                    return u;
+                }
+                factor = (factor * factor).max(0.5);
+            }
+            None => {
+                factor = factor.sqrt();
+                if factor > 1.0 - 1e-9 {
+                    // Not reached for points off the slit; keep the nearest solution found.
+                    return u;
+                }
+            }
+        }
+    }
 }
 
 /// Newton's method for `Φ(u) = (1−α) Log(u + x_l) + α Log(u − x_r) = target`, started at
-/// `guess`, kept in the closed upper half-plane. Returns `None` when it does not converge.
+/// `guess`, with a backtracking line search on |Φ(u) − target| and iterates kept in the closed
+/// upper half-plane. Converged means the residual is at rounding level; returns `None` otherwise
+/// (a small Newton step alone is not trusted: Φ' is unbounded near `−x_l` and `x_r`).
 fn newton_log(
     target: Complex64,
     guess: Complex64,
     alpha: f64,
     xl: f64,
     xr: f64,
-    scale: f64,
 ) -> Option<Complex64> {
+    let phi = |u: Complex64| (u + xl).ln() * (1.0 - alpha) + (u - xr).ln() * alpha;
+    let tol = 8e-16 * (1.0 + target.norm());
     let mut u = clamp_upper(guess);
-    for _ in 0..60 {
-        let p = u + xl;
-        let q = u - xr;
-        if p.norm_sqr() == 0.0 || q.norm_sqr() == 0.0 {
+    let mut resid = phi(u) - target;
+    for _ in 0..50 {
+        if !(resid.re.is_finite() && resid.im.is_finite()) {
             return None;
         }
-        let phi = p.ln() * (1.0 - alpha) + q.ln() * alpha;
-        let dphi = (1.0 - alpha) / p + alpha / q;
-        let resid = phi - target;
-        if dphi.norm_sqr() == 0.0 {
+        if resid.norm() <= tol {
+            return Some(u);
+        }
+        let dphi = (1.0 - alpha) / (u + xl) + alpha / (u - xr);
+        let step = resid / dphi;
+        if !(step.re.is_finite() && step.im.is_finite()) {
             return None;
         }
-        let mut step = resid / dphi;
-        // Damp steps that would leave H or jump far; Φ is univalent on H so the root is unique.
-        let max_step = 0.5 * (u.norm() + scale);
-        if step.norm() > max_step {
-            step *= max_step / step.norm();
+        let mut lambda = 1.0;
+        let mut accepted = false;
+        for _ in 0..30 {
+            let next = clamp_upper(u - step * lambda);
+            let r = phi(next) - target;
+            if r.norm() < resid.norm() {
+                u = next;
+                resid = r;
+                accepted = true;
+                break;
+            }
+            lambda *= 0.5;
         }
-        let mut next = u - step;
-        if next.im < 0.0 {
-            next = Complex64::new(next.re, 0.5 * u.im);
-        }
-        let converged = step.norm() <= 1e-15 * (u.norm() + scale);
-        u = next;
-        if converged {
-            return Some(clamp_upper(u));
-        }
-        if resid.norm() < 1e-15 {
-            return Some(clamp_upper(u));
+        if !accepted {
+            // No decrease: at rounding level already, or stuck.
+            return (resid.norm() <= 64.0 * tol).then_some(u);
         }
     }
-    None
+    (resid.norm() <= 64.0 * tol).then_some(u)
 }
 
 /// A discretised chordal Loewner chain: the explicit steps of a driving function.

@@ -160,13 +160,18 @@ pub struct AuditArgs {
     /// Curves per κ for the statistical checks (standard errors shrink like 1/√samples).
     #[arg(long, short = 'm', default_value = "4000", value_parser = parse_count)]
     pub samples: u64,
-    /// Relative capacity step Δt/t of the geometric grid (smaller is finer and slower).
-    #[arg(long, default_value = "0.02", value_parser = parse_fraction)]
+    /// Relative capacity step Δt/t of the geometric base grid (steps are then bisected where a
+    /// point needs it; see --point-step).
+    #[arg(long, default_value = "0.1", value_parser = parse_fraction)]
     pub ratio: f64,
+    /// Point-adaptive step bound ε: steps are bisected by Brownian bridges until
+    /// 2Δt ≤ ε·|g_t(z) − W_t|² for every point z not yet decided (smaller is finer and slower).
+    #[arg(long, default_value = "0.1", value_parser = parse_fraction)]
+    pub point_step: f64,
     /// Capacity time at which curves stop (the bias this leaves is reported).
     #[arg(long, default_value = "10000", value_parser = parse_positive)]
     pub horizon: f64,
-    /// κ values for left passage, each in (0, 8) (repeatable; default 2, 8/3, 4, 6).
+    /// κ values for left passage, each in (0, 8) (repeatable; default 2, 8/3, 4).
     #[arg(long, short, value_parser = parse_kappa)]
     pub kappa: Vec<f64>,
     /// Points x,y for left passage (repeatable; default 1,1  -0.5,1  2,0.5).

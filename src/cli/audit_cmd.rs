@@ -42,6 +42,7 @@ pub fn run(g: &Global, a: &AuditArgs) -> Result<(), Failure> {
     let mut s = AuditSettings::quick(resolve_seed(g));
     s.samples = a.samples.min(10_000_000) as usize;
     s.ratio = a.ratio;
+    s.point_step = a.point_step;
     s.horizon = a.horizon;
     if !a.kappa.is_empty() {
         s.kappas = a.kappa.clone();
