@@ -317,7 +317,7 @@ impl BrownianPath {
                     let mid = left + half;
                     let mid_num = (num << (lv - level)) + mid as u64 / half as u64;
                     let z = self.bridge_normal(base, lv, mid_num);
-                    let h = (t1 - t0) * stride as f64 / sub as f64;
+                    let h = self.dyadic_length(base, lv - 1);
                     vals[mid] = 0.5 * (vals[left] + vals[left + stride])
                         + 0.5 * (self.kappa * h).sqrt() * z;
                 }
@@ -376,7 +376,8 @@ impl BrownianPath {
                 let lv = level + 1;
                 let mid_num = 2 * num + 1;
                 let z = self.bridge_normal(k as u32, lv, mid_num);
-                let wm = 0.5 * (w0 + w1) + 0.5 * (self.kappa * (t1 - t0)).sqrt() * z;
+                let h = self.dyadic_length(k as u32, level);
+                let wm = 0.5 * (w0 + w1) + 0.5 * (self.kappa * h).sqrt() * z;
                 let tb0 = t[k];
                 let tm = tb0 + (t[k + 1] - tb0) * (mid_num as f64 / (1u64 << lv) as f64);
                 stack.push((lv, mid_num, tm, t1, wm, w1));
@@ -404,6 +405,13 @@ impl BrownianPath {
     pub fn depth(&self, k: usize) -> u8 {
         let (_, level, _) = normalise(self.addr[k], self.addr[k + 1]);
         level
+    }
+
+    /// Length of a dyadic sub-interval of level `level` of base interval `base` (computed the
+    /// same way everywhere, so bridge values agree to the bit).
+    fn dyadic_length(&self, base: u32, level: u8) -> f64 {
+        let (a, b) = self.base_interval(base);
+        (b - a) / (1u64 << level) as f64
     }
 
     fn base_interval(&self, base: u32) -> (f64, f64) {
@@ -465,6 +473,35 @@ mod tests {
         b.refine_steps(&[(3, 1), (4, 1)]);
         assert_eq!(a.driving(), b.driving());
         assert_eq!(a.driving().steps(), 11);
+    }
+
+    #[test]
+    fn walk_sees_the_refined_path() {
+        let mut a = BrownianPath::uniform(6.0, 2.0, 5, 3, 9).unwrap();
+        let b = a.clone();
+        a.refine_steps(&[(1, 3), (4, 2)]);
+        let mut walked = vec![(0.0, 0.0)];
+        b.walk_adaptive(40, |t0, t1, _w0, w1, _| {
+            let want = if (0.4..0.8).contains(&t0) {
+                3
+            } else if t0 >= 1.6 {
+                2
+            } else {
+                0
+            };
+            // Depth of this candidate: base step length 0.4 divided by its length.
+            let depth = ((0.4 / (t1 - t0)).log2().round()) as i32;
+            if depth < want {
+                return false;
+            }
+            walked.push((t1, w1));
+            true
+        });
+        let d = a.driving();
+        assert_eq!(walked.len(), d.times().len());
+        for ((t, w), (&ta, &wa)) in walked.iter().zip(d.times().iter().zip(d.values())) {
+            assert!((t - ta).abs() < 1e-15 && w == &wa, "{t} {w} vs {ta} {wa}");
+        }
     }
 
     #[test]

@@ -323,17 +323,21 @@ fn newton_log(
     xr: f64,
 ) -> Option<Complex64> {
     let phi = |u: Complex64| (u + xl).ln() * (1.0 - alpha) + (u - xr).ln() * alpha;
-    let tol = 8e-16 * (1.0 + target.norm());
+    // Attainable residual: rounding of the target, plus the rounding of u (≈ 2⁻⁵² of its size)
+    // amplified by |Φ'(u)|, which is large near the branch points −x_l and x_r.
+    let base_tol = 8e-16 * (1.0 + target.norm());
     let mut u = clamp_upper(guess);
     let mut resid = phi(u) - target;
+    let mut tol = base_tol;
     for _ in 0..50 {
         if !(resid.re.is_finite() && resid.im.is_finite()) {
             return None;
         }
+        let dphi = (1.0 - alpha) / (u + xl) + alpha / (u - xr);
+        tol = base_tol + 4.5e-16 * (u.norm() + xl + xr) * dphi.norm();
         if resid.norm() <= tol {
             return Some(u);
         }
-        let dphi = (1.0 - alpha) / (u + xl) + alpha / (u - xr);
         let step = resid / dphi;
         if !(step.re.is_finite() && step.im.is_finite()) {
             return None;

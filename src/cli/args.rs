@@ -85,6 +85,7 @@ pub enum DomainArg {
 }
 
 #[derive(Args, Debug)]
+#[command(allow_negative_numbers = true)]
 pub struct TraceArgs {
     /// κ > 0 (κ > 8 is allowed with a warning: the curve is space-filling).
     #[arg(long, short, value_parser = parse_kappa, required_unless_present = "driving")]
@@ -142,6 +143,7 @@ pub struct TraceArgs {
 }
 
 #[derive(Args, Debug)]
+#[command(allow_negative_numbers = true)]
 pub struct LawsArgs {
     /// κ > 0.
     #[arg(long, short, value_parser = parse_kappa)]
@@ -156,6 +158,7 @@ pub struct LawsArgs {
 }
 
 #[derive(Args, Debug)]
+#[command(allow_negative_numbers = true)]
 pub struct AuditArgs {
     /// Curves per κ for the statistical checks (standard errors shrink like 1/√samples).
     #[arg(long, short = 'm', default_value = "4000", value_parser = parse_count)]

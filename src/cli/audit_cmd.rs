@@ -39,7 +39,7 @@ pub fn write_reports(
 }
 
 pub fn run(g: &Global, a: &AuditArgs) -> Result<(), Failure> {
-    let mut s = AuditSettings::quick(resolve_seed(g));
+    let mut s = AuditSettings::quick(0);
     s.samples = a.samples.min(10_000_000) as usize;
     s.ratio = a.ratio;
     s.point_step = a.point_step;
@@ -53,6 +53,7 @@ pub fn run(g: &Global, a: &AuditArgs) -> Result<(), Failure> {
     s.step = step_kind(a.step);
     s.sigma_limit = a.sigma_limit;
     s.validate()?;
+    s.seed = resolve_seed(g);
     let (report, elapsed) = run_audit(g, &s)?;
     if let (Some(md), Some(js)) = (in_out(g, "audit.md"), in_out(g, "audit.json")) {
         write_reports(&report, elapsed, &md, &js)?;

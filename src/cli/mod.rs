@@ -53,10 +53,17 @@ pub fn main() -> ExitCode {
                 let _ = e.print();
                 return ExitCode::SUCCESS;
             }
+            // clap's message spans several lines; keep it on one, without the usage block.
             let text = e.render().to_string();
-            let first = text.lines().next().unwrap_or("invalid arguments");
-            let first = first.strip_prefix("error: ").unwrap_or(first);
-            eprintln!("sleek: error: {first} (see 'sleek --help')");
+            let msg: Vec<&str> = text
+                .lines()
+                .take_while(|l| !l.starts_with("Usage:") && !l.starts_with("For more information"))
+                .map(str::trim)
+                .filter(|l| !l.is_empty())
+                .collect();
+            let msg = msg.join(" ");
+            let msg = msg.strip_prefix("error: ").unwrap_or(&msg);
+            eprintln!("sleek: error: {msg} (see 'sleek --help')");
             return ExitCode::from(2);
         }
     };

@@ -159,9 +159,9 @@ pub fn sample(g: &Global, a: &TraceArgs) -> Result<TraceRun, Failure> {
         ));
     }
     let time = a.time.unwrap_or(1.0);
-    let seed = resolve_seed(g);
     let res = resolution_of(a, time);
     let sampler = ChordalSle::new(kappa, time, res, step, meth)?;
+    let seed = resolve_seed(g);
     let pb = progress(g, a.count, "curves");
     let curves: Vec<ChordalCurve> = (0..a.count)
         .into_par_iter()

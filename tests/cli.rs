@@ -1,0 +1,245 @@
+//! The command line as a user meets it: exit codes, one-line errors for bad input, exports, and
+//! small seeded golden values (value-stability: update deliberately when the sampler changes).
+
+use assert_cmd::Command;
+
+fn sleek() -> Command {
+    Command::cargo_bin("sleek").unwrap()
+}
+
+/// Run with arguments; return (exit code, stdout, stderr).
+fn run(args: &[&str]) -> (i32, String, String) {
+    let out = sleek().args(args).output().unwrap();
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+fn assert_usage_error(args: &[&str], must_mention: &[&str]) {
+    let (code, _, err) = run(args);
+    assert_eq!(code, 2, "{args:?}: exit {code}, stderr {err}");
+    assert_eq!(
+        err.trim_end().lines().count(),
+        1,
+        "{args:?}: not one line: {err}"
+    );
+    assert!(err.starts_with("sleek: error: "), "{err}");
+    for m in must_mention {
+        assert!(err.contains(m), "{args:?}: '{m}' missing from: {err}");
+    }
+    assert!(!err.contains("panicked"));
+}
+
+#[test]
+fn bad_values_give_one_line_and_exit_2() {
+    assert_usage_error(&["trace", "--kappa", "-1"], &["--kappa", "-1", "> 0"]);
+    assert_usage_error(&["trace", "--kappa", "0"], &["--kappa", "> 0"]);
+    assert_usage_error(&["trace", "--kappa", "nan"], &["--kappa", "nan"]);
+    assert_usage_error(&["trace", "--kappa", "inf"], &["--kappa", "inf"]);
+    assert_usage_error(&["trace", "--kappa", "abc"], &["--kappa", "abc"]);
+    assert_usage_error(
+        &["trace", "--kappa", "2", "--seed", "x1"],
+        &["--seed", "x1"],
+    );
+    assert_usage_error(
+        &["trace", "--kappa", "2", "--time", "0"],
+        &["--time", "> 0"],
+    );
+    assert_usage_error(&["trace", "--kappa", "2", "--time", "-3"], &["--time"]);
+    assert_usage_error(
+        &["trace", "--kappa", "2", "--count", "0"],
+        &["--count", "≥ 1"],
+    );
+    assert_usage_error(&["trace", "--kappa", "2", "--points", "0"], &["--points"]);
+    assert_usage_error(
+        &["trace", "--kappa", "2", "--spacing-rel", "2"],
+        &["--spacing-rel", "(0, 1]"],
+    );
+    assert_usage_error(
+        &["trace", "--kappa", "2", "--plot", "out.txt"],
+        &["--plot", ".svg or .png"],
+    );
+    assert_usage_error(
+        &["trace", "--kappa", "2", "--method", "fast"],
+        &["fast", "not available"],
+    );
+    assert_usage_error(&["trace"], &["--kappa"]);
+    assert_usage_error(
+        &["laws", "--kappa", "4", "--at", "1,-1"],
+        &["--at", "y > 0"],
+    );
+    assert_usage_error(&["laws", "--kappa", "4", "--at", "1;2"], &["--at", "x,y"]);
+    assert_usage_error(&["audit", "--kappa", "9"], &["kappa", "(0, 8)"]);
+    assert_usage_error(&["frobnicate"], &["frobnicate"]);
+}
+
+#[test]
+fn unreadable_driving_file_is_a_runtime_error() {
+    let (code, _, err) = run(&["trace", "--driving", "/nonexistent/w.csv"]);
+    assert_eq!(code, 1, "{err}");
+    assert!(
+        err.contains("/nonexistent/w.csv") && err.lines().count() == 1,
+        "{err}"
+    );
+    let dir = tempfile::tempdir().unwrap();
+    let bad = dir.path().join("bad.csv");
+    std::fs::write(&bad, "t,w\n0,0\n0.5,zz\n").unwrap();
+    let (code, _, err) = run(&["trace", "--driving", bad.to_str().unwrap()]);
+    assert_eq!(code, 1, "{err}");
+    assert!(err.contains("line 3"), "{err}");
+}
+
+#[test]
+fn driving_file_traces_the_vertical_segment() {
+    // Constant driving: the trace is [0, 2i√t] (Kager, Nienhuis & Kadanoff, J. Stat. Phys. 2004).
+    let dir = tempfile::tempdir().unwrap();
+    let f = dir.path().join("w.csv");
+    let csv = dir.path().join("out.csv");
+    std::fs::write(&f, "# constant\nt,w\n0,0\n0.25,0\n1,0\n").unwrap();
+    let (code, _, err) = run(&[
+        "trace",
+        "--driving",
+        f.to_str().unwrap(),
+        "--export-csv",
+        csv.to_str().unwrap(),
+        "-q",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let text = std::fs::read_to_string(&csv).unwrap();
+    let last: Vec<f64> = text
+        .lines()
+        .last()
+        .unwrap()
+        .split(',')
+        .map(|x| x.parse().unwrap())
+        .collect();
+    assert!(
+        (last[3]).abs() < 1e-14 && (last[4] - 2.0).abs() < 1e-14,
+        "{text}"
+    );
+}
+
+#[test]
+fn exports_have_the_documented_layout() {
+    let dir = tempfile::tempdir().unwrap();
+    let csv = dir.path().join("c.csv");
+    let json = dir.path().join("c.json");
+    let png = dir.path().join("c.png");
+    let (code, out, err) = run(&[
+        "trace",
+        "--kappa",
+        "8/3",
+        "--points",
+        "40",
+        "--count",
+        "2",
+        "--seed",
+        "11",
+        "--export-csv",
+        csv.to_str().unwrap(),
+        "--export-json",
+        json.to_str().unwrap(),
+        "--plot",
+        png.to_str().unwrap(),
+    ]);
+    assert_eq!(code, 0, "{err}");
+    assert!(out.contains("seed 11"), "{out}");
+    let text = std::fs::read_to_string(&csv).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(lines.next(), Some("curve,index,t,x,y"));
+    assert_eq!(lines.count(), 2 * 41);
+    let v: serde_json::Value = serde_json::from_slice(&std::fs::read(&json).unwrap()).unwrap();
+    assert_eq!(v["format"], "sleek/trace");
+    assert_eq!(v["seed"], 11);
+    assert!((v["kappa"].as_f64().unwrap() - 8.0 / 3.0).abs() < 1e-15);
+    assert_eq!(v["curves"].as_array().unwrap().len(), 2);
+    assert_eq!(v["curves"][1]["x"].as_array().unwrap().len(), 41);
+    let png_bytes = std::fs::read(&png).unwrap();
+    assert_eq!(&png_bytes[1..4], b"PNG");
+}
+
+#[test]
+fn same_seed_same_bytes_at_any_thread_count() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut outs = Vec::new();
+    for threads in ["1", "2"] {
+        let f = dir.path().join(format!("t{threads}.csv"));
+        let st = sleek()
+            .env("RAYON_NUM_THREADS", threads)
+            .args([
+                "trace",
+                "--kappa",
+                "6",
+                "--count",
+                "4",
+                "--spacing",
+                "0.1",
+                "--seed",
+                "3",
+                "-q",
+                "--export-csv",
+            ])
+            .arg(&f)
+            .output()
+            .unwrap();
+        assert!(st.status.success());
+        outs.push(std::fs::read(&f).unwrap());
+    }
+    assert_eq!(outs[0], outs[1]);
+}
+
+/// Value stability: the end point of one seeded curve. Update deliberately if the sampler's
+/// random streams or maps change (and say so in CHANGELOG.md).
+#[test]
+fn golden_endpoint() {
+    let (code, out, err) = run(&[
+        "trace", "--kappa", "4", "--points", "64", "--seed", "1", "--json", "-q",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let (x, y) = (
+        v["curves"][0]["end_x"].as_f64().unwrap(),
+        v["curves"][0]["end_y"].as_f64().unwrap(),
+    );
+    let golden = (GOLDEN_X, GOLDEN_Y);
+    assert!(
+        (x - golden.0).abs() < 1e-12 && (y - golden.1).abs() < 1e-12,
+        "end point {x} {y}"
+    );
+}
+const GOLDEN_X: f64 = -3.6933261308750214;
+const GOLDEN_Y: f64 = 1.6576024590699405;
+
+#[test]
+fn laws_values_and_json() {
+    let (code, out, err) = run(&["laws", "--kappa", "4", "--at", "-0.3,0.5", "--json"]);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    // κ = 4: E[T] = π² (Schramm, Sheffield & Wilson, Commun. Math. Phys. 2009) and
+    // P(left of z) = ½ + atan(x/y)/π (Schramm, Electron. Comm. Probab. 2001).
+    let mean = v["cle"]["mean_t"].as_f64().unwrap();
+    assert!((mean - std::f64::consts::PI.powi(2)).abs() < 1e-12);
+    let p = v["left_passage"][0]["probability"].as_f64().unwrap();
+    assert!((p - (0.5 + (-0.6f64).atan() / std::f64::consts::PI)).abs() < 1e-13);
+    assert_eq!(v["phase"], "simple");
+    let (code, out, _) = run(&["laws", "--kappa", "9"]);
+    assert_eq!(code, 0);
+    assert!(
+        out.contains("space-filling") || out.contains("space filling"),
+        "{out}"
+    );
+}
+
+#[test]
+fn space_filling_kappa_warns() {
+    let (code, _, err) = run(&[
+        "trace", "--kappa", "10", "--points", "30", "--seed", "1", "-q",
+    ]);
+    assert_eq!(code, 0);
+    assert!(
+        err.contains("warning") && err.contains("space-filling"),
+        "{err}"
+    );
+}
