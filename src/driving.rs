@@ -307,7 +307,6 @@ impl BrownianPath {
             let mut vals = vec![f64::NAN; sub + 1];
             vals[0] = self.driving.w[k];
             vals[sub] = self.driving.w[k + 1];
-            let (t0, t1) = (self.driving.t[k], self.driving.t[k + 1]);
             let mut stride = sub;
             let mut lv = level;
             while stride > 1 {
