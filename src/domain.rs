@@ -37,8 +37,17 @@ impl ChordalDomain {
         }
     }
 
-    /// Map a point of the closed upper half-plane into the domain. The start point 0 goes to the
-    /// domain's start (−∞ + 0i for the strip, represented by a very negative real part).
+    /// Index of the first trace point that has a finite image: 1 for the strip (the start point
+    /// 0 goes to −∞ and is left out of exports and figures), 0 otherwise.
+    pub fn first_finite_index(self) -> usize {
+        match self {
+            ChordalDomain::Strip => 1,
+            _ => 0,
+        }
+    }
+
+    /// Map a point of the closed upper half-plane into the domain. For the strip, 0 goes to
+    /// −∞ (returned as a non-finite real part).
     pub fn map(self, z: Complex64) -> Complex64 {
         match self {
             ChordalDomain::HalfPlane => z,
@@ -48,7 +57,7 @@ impl ChordalDomain {
             }
             ChordalDomain::Strip => {
                 if z.norm() == 0.0 {
-                    Complex64::new(f64::MIN_POSITIVE.ln(), 0.0)
+                    Complex64::new(f64::NEG_INFINITY, 0.0)
                 } else {
                     // Clamp −0.0 so points on the negative axis land on Im = π, not −π.
                     Complex64::new(z.re, z.im.max(0.0)).ln()

@@ -145,7 +145,12 @@ struct TraceRecord<'a> {
 
 fn check_finite(curves: &[ChordalCurve], domain: ChordalDomain) -> Result<()> {
     for c in curves {
-        for (k, z) in c.points.iter().enumerate() {
+        for (k, z) in c
+            .points
+            .iter()
+            .enumerate()
+            .skip(domain.first_finite_index())
+        {
             let m = domain.map(*z);
             if !(m.re.is_finite() && m.im.is_finite()) {
                 return Err(Error::Numerical(format!(
@@ -158,7 +163,8 @@ fn check_finite(curves: &[ChordalCurve], domain: ChordalDomain) -> Result<()> {
     Ok(())
 }
 
-/// Write curves as CSV with header `curve,index,t,x,y` (points in `domain`).
+/// Write curves as CSV with header `curve,index,t,x,y` (points in `domain`; in the strip the
+/// start point, at −∞, is left out).
 ///
 /// # Errors
 /// A non-finite point (nothing is written then) or an I/O error.
@@ -171,7 +177,14 @@ pub fn write_trace_csv(
     let io = |e: std::io::Error| Error::Output(format!("writing CSV: {e}"));
     writeln!(out, "curve,index,t,x,y").map_err(io)?;
     for c in curves {
-        for (k, (z, t)) in c.points.iter().zip(c.driving.times()).enumerate() {
+        let first = domain.first_finite_index();
+        for (k, (z, t)) in c
+            .points
+            .iter()
+            .zip(c.driving.times())
+            .enumerate()
+            .skip(first)
+        {
             let m = domain.map(*z);
             writeln!(out, "{},{k},{t:e},{:e},{:e}", c.index, m.re, m.im).map_err(io)?;
         }
@@ -200,14 +213,15 @@ pub fn write_trace_json(
         curves: curves
             .iter()
             .map(|c| {
-                let mapped: Vec<_> = c.points.iter().map(|z| domain.map(*z)).collect();
+                let first = domain.first_finite_index();
+                let mapped: Vec<_> = c.points[first..].iter().map(|z| domain.map(*z)).collect();
                 CurveRecord {
                     curve: c.index,
-                    samples: c.points.len(),
+                    samples: mapped.len(),
                     max_spacing_in_h: c.max_spacing,
                     target_met: c.target_met,
-                    t: c.driving.times(),
-                    w: c.driving.values(),
+                    t: &c.driving.times()[first..],
+                    w: &c.driving.values()[first..],
                     x: mapped.iter().map(|z| z.re).collect(),
                     y: mapped.iter().map(|z| z.im).collect(),
                 }

@@ -104,7 +104,12 @@ impl PlaneFigure {
             }
         }
         let pad = 0.04 * (x1 - x0).max(y1 - y0).max(1e-12);
-        (x0 - pad, x1 + pad, y0 - pad, y1 + pad)
+        let below = if self.domain == ChordalDomain::HalfPlane {
+            0.25 * pad
+        } else {
+            pad
+        };
+        (x0 - pad, x1 + pad, y0 - below, y1 + pad)
     }
 
     /// Draw to `path` (`.svg` or `.png`).
@@ -132,7 +137,8 @@ impl PlaneFigure {
         let scale = if ext == "png" { 2 } else { 1 };
         let plot_w = 760u32;
         let plot_h = (plot_w as f64 * aspect).round() as u32;
-        let caption_h = 22 * self.caption.len() as u32 + 16;
+        let caption = wrap_lines(&self.caption, 112);
+        let caption_h = 22 * caption.len() as u32 + 16;
         let w = plot_w + 90;
         let h = plot_h + 70 + 50 + caption_h;
         if let Some(parent) = path.parent().filter(|p| !p.as_os_str().is_empty()) {
@@ -141,13 +147,13 @@ impl PlaneFigure {
         match ext.as_str() {
             "svg" => {
                 let root = SVGBackend::new(path, (w, h)).into_drawing_area();
-                self.render(&root, (x0, x1, y0, y1), caption_h, 1)
+                self.render(&root, (x0, x1, y0, y1), &caption, caption_h, 1)
                     .map_err(|e| out_err(path, e))?;
                 root.present().map_err(|e| out_err(path, e))
             }
             "png" => {
                 let root = BitMapBackend::new(path, (w * scale, h * scale)).into_drawing_area();
-                self.render(&root, (x0, x1, y0, y1), caption_h * scale, scale)
+                self.render(&root, (x0, x1, y0, y1), &caption, caption_h * scale, scale)
                     .map_err(|e| out_err(path, e))?;
                 root.present().map_err(|e| out_err(path, e))
             }
@@ -163,6 +169,7 @@ impl PlaneFigure {
         &self,
         root: &DrawingArea<DB, Shift>,
         (x0, x1, y0, y1): (f64, f64, f64, f64),
+        caption: &[String],
         caption_h: u32,
         s: u32,
     ) -> std::result::Result<(), Box<dyn std::error::Error + 'static>>
@@ -179,8 +186,17 @@ impl PlaneFigure {
             .x_label_area_size(40 * s)
             .y_label_area_size(56 * s)
             .build_cartesian_2d(x0..x1, y0..y1)?;
+        let tick = |v: &f64, span: f64| {
+            // Avoid "-0.0" and keep as many decimals as the span needs.
+            let v = if v.abs() < 1e-9 * span { 0.0 } else { *v };
+            let digits = (-(span / 8.0).log10().floor()).clamp(0.0, 6.0) as usize;
+            format!("{v:.digits$}")
+        };
+        let (xs, ys) = (x1 - x0, y1 - y0);
         chart
             .configure_mesh()
+            .x_label_formatter(&|v| tick(v, xs))
+            .y_label_formatter(&|v| tick(v, ys))
             .light_line_style(RGBColor(235, 235, 235))
             .bold_line_style(RGBColor(215, 215, 215))
             .x_desc("Re z")
@@ -243,12 +259,13 @@ impl PlaneFigure {
             chart
                 .configure_series_labels()
                 .position(SeriesLabelPosition::UpperLeft)
+                .legend_area_size(30 * s)
                 .background_style(WHITE.mix(0.85))
                 .border_style(RGBColor(150, 150, 150))
                 .label_font(font(13))
                 .draw()?;
         }
-        for (i, line) in self.caption.iter().enumerate() {
+        for (i, line) in caption.iter().enumerate() {
             lower.draw_text(
                 line,
                 &font(14).color(&RGBColor(40, 40, 40)),
@@ -257,6 +274,25 @@ impl PlaneFigure {
         }
         Ok(())
     }
+}
+
+/// Break caption lines at spaces so that none is longer than `width` characters.
+fn wrap_lines(lines: &[String], width: usize) -> Vec<String> {
+    let mut out = Vec::new();
+    for line in lines {
+        let mut cur = String::new();
+        for word in line.split(' ') {
+            if !cur.is_empty() && cur.chars().count() + 1 + word.chars().count() > width {
+                out.push(std::mem::take(&mut cur));
+                cur.push_str("    ");
+            } else if !cur.is_empty() {
+                cur.push(' ');
+            }
+            cur.push_str(word);
+        }
+        out.push(cur);
+    }
+    out
 }
 
 /// Widen the shorter side of a box so that `(y1 − y0)/(x1 − x0) = aspect`.

@@ -235,11 +235,14 @@ impl ChordalSle {
             requests.sort_by(|a, b| b.0.total_cmp(&a.0));
             let mut chosen = Vec::new();
             for &(_, k, want) in &requests {
-                let cost = (1usize << want) - 1;
-                if cost <= room {
-                    room -= cost;
-                    chosen.push((k, want));
+                // Near the budget, split less deeply so that the worst steps all get some.
+                let fit = (usize::BITS - 1 - (room + 1).leading_zeros()) as u8;
+                let want = want.min(fit);
+                if want == 0 {
+                    break;
                 }
+                room -= (1usize << want) - 1;
+                chosen.push((k, want));
             }
             if chosen.is_empty() {
                 if !fresh {

@@ -193,7 +193,7 @@ pub fn sample(g: &Global, a: &TraceArgs) -> Result<TraceRun, Failure> {
 pub fn figure(run: &TraceRun) -> PlaneFigure {
     let s = &run.settings;
     let title = match s.kappa {
-        Some(k) => format!("chordal SLE_κ, κ = {}", fmt_kappa(k)),
+        Some(k) => format!("Chordal SLE with κ = {}", fmt_kappa(k)),
         None => "trace of the given driving function".to_string(),
     };
     let n_pts: usize = run.curves.iter().map(|c| c.points.len()).sum();
