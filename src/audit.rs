@@ -298,8 +298,9 @@ pub fn exact_checks(n: usize) -> Result<Vec<CheckRow>> {
 const MAX_POINT_LEVEL: u8 = 30;
 
 /// Flow points forward through one sampled curve, `z ↦ g_T(z) − W_T`, bisecting steps where a
-/// point needs it (see [`AuditSettings::point_step`]). Points whose image is already on (or
-/// within 1e-9 relative of) the real line are decided and no longer drive the refinement.
+/// point needs it (see [`AuditSettings::point_step`]). With tilted slits, points whose image is
+/// already on (or within 1e-9 relative of) the real line are decided and no longer drive the
+/// refinement.
 /// Returns the images and the number of steps used.
 pub fn flow_points(
     path: &BrownianPath,
@@ -313,7 +314,9 @@ pub fn flow_points(
         let dt = t1 - t0;
         if !last {
             for z in &g {
-                if z.im <= 1e-9 * (z.re - w0).abs() {
+                // Decided points stop driving the refinement, except with vertical slits, whose
+                // driving jumps: a jump across a point's image would move it to the other side.
+                if step == StepKind::Tilted && z.im <= 1e-9 * (z.re - w0).abs() {
                     continue;
                 }
                 let d = (z - w0).norm_sqr().min((z - w1).norm_sqr());
