@@ -379,9 +379,10 @@ fn left_passage_checks(
         let hits: Moments = per_sample.iter().map(|v| v[j].0 as u8 as f64).collect();
         let residual: Moments = per_sample.iter().map(|v| v[j].1).collect();
         let p = hits.mean();
-        // Binomial standard error √(p(1−p)/n).
-        let se = (p * (1.0 - p) / hits.n as f64).sqrt().max(1e-300);
+        // Binomial standard error under the exact law, √(p₀(1−p₀)/n): the σ of the test, and
+        // well defined even when every curve falls on one side.
         let exact = laws::schramm_left_passage(kappa, x, y)?;
+        let se = (exact * (1.0 - exact) / hits.n as f64).sqrt().max(1e-300);
         let dev = (p - exact) / se;
         rows.push(CheckRow {
             check: format!("left passage, κ = {}, z = {x}{:+}i", fmt_kappa(kappa), y),

@@ -121,6 +121,11 @@ pub fn write_table(out: &mut impl Write, report: &AuditReport) -> io::Result<()>
     )
 }
 
+/// Escape the table separator in a Markdown cell.
+fn cell(text: &str) -> String {
+    text.replace('|', "\\|")
+}
+
 /// The audit as a Markdown document: settings, the check table, convergence tables, and notes on
 /// how to read them.
 ///
@@ -135,12 +140,13 @@ pub fn write_markdown(
     writeln!(out, "# sleek audit\n")?;
     writeln!(
         out,
-        "sleek {} · seed {} · {} curves per κ · left passage on a geometric grid Δt/t = {} \
-         from t = {:e} to t = {:e} · {} slits · {:.1} s\n",
+        "sleek {} · seed {} · {} curves per κ · left passage on a geometric base grid Δt/t = {} \
+         bisected until 2Δt ≤ {}·|g(z) − W|², from t = {:e} to t = {:e} · {} slits · {:.1} s\n",
         env!("CARGO_PKG_VERSION"),
         s.seed,
         s.samples,
         s.ratio,
+        s.point_step,
         s.t_min,
         s.horizon,
         s.step.name(),
@@ -164,13 +170,13 @@ pub fn write_markdown(
         writeln!(
             out,
             "| {} | {} | {} | {} | {} | {} | {} | {} |",
-            r.check,
+            cell(&r.check),
             r.source,
             estimate_cell(r),
             fmt_num(r.exact),
             sigma_cell(r),
             r.bias_bound.map(fmt_num).unwrap_or_else(|| "—".into()),
-            r.resolution,
+            cell(&r.resolution),
             verdict_word(r.verdict)
         )?;
     }
@@ -183,7 +189,7 @@ pub fn write_markdown(
     let mut last = String::new();
     for c in &report.convergence {
         if c.study != last {
-            writeln!(out, "\n**{}**\n", c.study)?;
+            writeln!(out, "\n**{}**\n", cell(&c.study))?;
             writeln!(
                 out,
                 "| steps | resolution | error | s.e. | observed order |"

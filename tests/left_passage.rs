@@ -5,7 +5,7 @@
 use sleek::audit::{self, AuditSettings, Verdict};
 
 /// κ ∈ {2, 8/3, 4} at z = 1+i, −0.5+i, 2+0.5i, 3000 curves each (seed 2026). Each estimate is a
-/// binomial proportion, σ = √(p(1−p)/3000) ≤ 0.0091; the test fails beyond 4σ (two-sided
+/// binomial proportion, σ = √(p₀(1−p₀)/3000) ≤ 0.0091 with p₀ the exact value; the test fails beyond 4σ (two-sided
 /// probability 6e-5 per check for an exact sampler). The bias that stopping the curves at
 /// t = 1e4 can cause is bounded by the run itself and must be far below σ.
 #[test]

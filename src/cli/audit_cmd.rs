@@ -15,6 +15,18 @@ pub fn run_audit(g: &Global, s: &AuditSettings) -> Result<(AuditReport, f64), Fa
     Ok((report, start.elapsed().as_secs_f64()))
 }
 
+/// The canonical JSON record of an audit.
+fn audit_record(report: &AuditReport, elapsed: f64) -> serde_json::Value {
+    serde_json::json!({
+        "format": "sleek/audit",
+        "format_version": sleek::io::FORMAT_VERSION,
+        "sleek_version": env!("CARGO_PKG_VERSION"),
+        "elapsed_seconds": elapsed,
+        "passed": report.passed(),
+        "report": report,
+    })
+}
+
 /// Write the Markdown and JSON files of a report.
 pub fn write_reports(
     report: &AuditReport,
@@ -26,15 +38,8 @@ pub fn write_reports(
     sleek::report::write_markdown(&mut buf, report, elapsed)
         .map_err(|e| Failure::Runtime(e.to_string()))?;
     write_file(md, &buf)?;
-    let rec = serde_json::json!({
-        "format": "sleek/audit",
-        "format_version": sleek::io::FORMAT_VERSION,
-        "sleek_version": env!("CARGO_PKG_VERSION"),
-        "elapsed_seconds": elapsed,
-        "passed": report.passed(),
-        "report": report,
-    });
-    let text = serde_json::to_string_pretty(&rec).map_err(|e| Failure::Runtime(e.to_string()))?;
+    let text = serde_json::to_string_pretty(&audit_record(report, elapsed))
+        .map_err(|e| Failure::Runtime(e.to_string()))?;
     write_file(json, text.as_bytes())
 }
 
@@ -60,17 +65,10 @@ pub fn run(g: &Global, a: &AuditArgs) -> Result<(), Failure> {
         note(g, &format!("wrote {} and {}", md.display(), js.display()));
     }
     if g.json {
-        let rec = serde_json::json!({
-            "format": "sleek/audit",
-            "format_version": sleek::io::FORMAT_VERSION,
-            "sleek_version": env!("CARGO_PKG_VERSION"),
-            "elapsed_seconds": elapsed,
-            "passed": report.passed(),
-            "report": report,
-        });
         println!(
             "{}",
-            serde_json::to_string_pretty(&rec).map_err(|e| Failure::Runtime(e.to_string()))?
+            serde_json::to_string_pretty(&audit_record(&report, elapsed))
+                .map_err(|e| Failure::Runtime(e.to_string()))?
         );
     } else {
         let mut out = std::io::stdout().lock();
