@@ -36,6 +36,7 @@ pub mod audit;
 pub mod domain;
 pub mod driving;
 pub mod error;
+pub mod fast;
 pub mod io;
 pub mod laws;
 pub mod loewner;

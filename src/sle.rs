@@ -10,7 +10,6 @@ use crate::driving::{check_kappa, check_time, BrownianPath, DrivingFunction, MAX
 use crate::error::{Error, Result};
 use crate::loewner::{ChordalChain, Method, StepKind};
 use num_complex::Complex64;
-use rayon::prelude::*;
 use serde::Serialize;
 
 /// A spacing target for adaptive refinement: consecutive trace points `p, q` must satisfy
@@ -276,8 +275,13 @@ impl ChordalSle {
                 }
             }
             let inserted: Vec<usize> = (0..merged.len()).filter(|&j| merged[j].is_none()).collect();
-            let values: Vec<Complex64> =
-                inserted.par_iter().map(|&j| chain.trace_point(j)).collect();
+            // A handful of points is cheaper to compose directly than to rebuild a block tree.
+            let how = if inserted.len() <= 64 {
+                Method::Direct
+            } else {
+                self.method
+            };
+            let values = chain.trace_at(how, &inserted).expect("method validated");
             for (&j, v) in inserted.iter().zip(values) {
                 merged[j] = Some(v);
             }

@@ -209,13 +209,3 @@ fn trace_stays_in_closed_half_plane() {
         }
     }
 }
-
-/// The fast method is a declared seam: until it exists it must refuse clearly.
-#[test]
-fn fast_method_refuses_clearly() {
-    let d = DrivingFunction::from_fn(1.0, 4, |_| 0.0).unwrap();
-    let e = ChordalChain::new(&d, StepKind::Tilted)
-        .trace(Method::Fast)
-        .unwrap_err();
-    assert!(e.to_string().contains("not available"), "{e}");
-}

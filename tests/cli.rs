@@ -62,8 +62,8 @@ fn bad_values_give_one_line_and_exit_2() {
         &["--plot", ".svg or .png"],
     );
     assert_usage_error(
-        &["trace", "--kappa", "2", "--method", "fast"],
-        &["fast", "not available"],
+        &["trace", "--kappa", "2", "--method", "quick"],
+        &["--method", "quick"],
     );
     assert_usage_error(&["trace"], &["--kappa"]);
     assert_usage_error(

@@ -130,7 +130,7 @@ pub fn run(g: &Global) -> Result<(), Failure> {
             max_points: sc.max_points,
             base_steps: 64,
             step: StepArg::Tilted,
-            method: MethodArg::Direct,
+            method: MethodArg::Fast,
             domain: sc.domain,
             driving: None,
             export_csv: None,
