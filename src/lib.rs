@@ -33,6 +33,7 @@
 #![deny(missing_docs)]
 
 pub mod audit;
+pub mod bench;
 pub mod domain;
 pub mod driving;
 pub mod error;

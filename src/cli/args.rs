@@ -48,9 +48,9 @@ pub enum Command {
     /// The Loewner chain is dg/dt = 2/(g − W) in the upper half-plane, W = √κ B, run to capacity
     /// time --time (half-plane capacity 2t). Curves are made of explicit slit maps: tilted
     /// slits (piecewise square-root driving, default) or vertical slits (piecewise constant).
-    /// Cost: the fast method (default) takes about 2 s of one core per 10⁵ points and 20 s per
-    /// 10⁶ (plus refinement passes); the direct method about N²/2 slit-map evaluations
-    /// (N = 10⁴: 2–3 s). Memory: about 150 bytes per point.
+    /// Cost on 2 cores: the fast method (default) about 2.5 s per 10⁵ points and 20–30 s per 10⁶,
+    /// a few times more with refinement passes; the direct method N²/2 slit-map evaluations
+    /// (N = 10⁴: 2–4 s). Memory: about 190 bytes per point. `sleek bench` measures yours.
     Trace(TraceArgs),
     /// Exact values for a κ: trace dimension, phase, Schramm's left-passage probability, and the
     /// CLE_κ conformal-radius law (8/3 < κ < 8).
@@ -58,6 +58,16 @@ pub enum Command {
     /// Check the samplers against published exact results at your resolution and sample size,
     /// and print a table (estimate ± standard error, exact value, deviation in σ).
     Audit(AuditArgs),
+    /// Time the direct and fast trace methods in one run on this machine: fitted scaling
+    /// exponents, speed-ups, fast-vs-direct agreement and peak memory (about a minute).
+    Bench(BenchArgs),
+}
+
+#[derive(Args, Debug)]
+pub struct BenchArgs {
+    /// Largest curve for the fast method (the direct method stops at 30000 steps).
+    #[arg(long, default_value = "1000000", value_parser = parse_count)]
+    pub max_n: u64,
 }
 
 #[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]

@@ -4,6 +4,7 @@
 
 mod args;
 mod audit_cmd;
+mod bench_cmd;
 mod common;
 mod laws_cmd;
 mod tour;
@@ -72,6 +73,7 @@ pub fn main() -> ExitCode {
         Some(Command::Trace(a)) => trace_cmd::run(&cli.global, a),
         Some(Command::Laws(a)) => laws_cmd::run(&cli.global, a),
         Some(Command::Audit(a)) => audit_cmd::run(&cli.global, a),
+        Some(Command::Bench(a)) => bench_cmd::run(&cli.global, a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

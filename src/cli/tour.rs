@@ -22,8 +22,8 @@ struct Scene {
     inner_radius: Option<f64>,
 }
 
-/// Resolutions are chosen so the whole tour runs in about a minute with the direct method; the
-/// captions say where a spacing target was not reached.
+/// Resolutions are chosen so the whole tour runs in about a minute on 2 cores; the captions say
+/// where a spacing target was not reached.
 const GALLERY: [Scene; 7] = [
     Scene {
         name: "kappa-2",
@@ -31,9 +31,9 @@ const GALLERY: [Scene; 7] = [
         time: 1.0,
         count: 3,
         domain: DomainArg::HalfPlane,
-        spacing: Some(0.02),
+        spacing: Some(0.01),
         spacing_rel: Some(0.05),
-        max_points: 8000,
+        max_points: 60000,
         inner_radius: None,
     },
     Scene {
@@ -42,9 +42,9 @@ const GALLERY: [Scene; 7] = [
         time: 1.0,
         count: 3,
         domain: DomainArg::HalfPlane,
-        spacing: Some(0.02),
+        spacing: Some(0.01),
         spacing_rel: Some(0.05),
-        max_points: 8000,
+        max_points: 60000,
         inner_radius: None,
     },
     Scene {
@@ -53,9 +53,9 @@ const GALLERY: [Scene; 7] = [
         time: 1.0,
         count: 2,
         domain: DomainArg::HalfPlane,
-        spacing: Some(0.03),
+        spacing: Some(0.012),
         spacing_rel: Some(0.05),
-        max_points: 10000,
+        max_points: 60000,
         inner_radius: None,
     },
     Scene {
@@ -64,9 +64,9 @@ const GALLERY: [Scene; 7] = [
         time: 1.0,
         count: 1,
         domain: DomainArg::HalfPlane,
-        spacing: Some(0.03),
+        spacing: Some(0.015),
         spacing_rel: Some(0.05),
-        max_points: 12000,
+        max_points: 60000,
         inner_radius: None,
     },
     Scene {
@@ -75,20 +75,20 @@ const GALLERY: [Scene; 7] = [
         time: 1.0,
         count: 1,
         domain: DomainArg::HalfPlane,
-        spacing: Some(0.04),
+        spacing: Some(0.025),
         spacing_rel: Some(0.05),
-        max_points: 12000,
+        max_points: 60000,
         inner_radius: None,
     },
     Scene {
         name: "kappa-3-disk",
         kappa: 3.0,
-        time: 10.0,
+        time: 50.0,
         count: 3,
         domain: DomainArg::Disk,
         spacing: None,
-        spacing_rel: Some(0.05),
-        max_points: 8000,
+        spacing_rel: Some(0.03),
+        max_points: 60000,
         inner_radius: None,
     },
     Scene {
@@ -98,8 +98,8 @@ const GALLERY: [Scene; 7] = [
         count: 1,
         domain: DomainArg::Strip,
         spacing: None,
-        spacing_rel: Some(0.05),
-        max_points: 12000,
+        spacing_rel: Some(0.04),
+        max_points: 60000,
         inner_radius: Some(2e-3),
     },
 ];

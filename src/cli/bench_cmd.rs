@@ -1,0 +1,83 @@
+//! `sleek bench`: direct against fast trace evaluation, in one run.
+
+use super::args::{BenchArgs, Global};
+use super::common::{in_out, note, write_file};
+use super::Failure;
+use sleek::bench::{self, BenchSettings};
+
+pub fn run(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
+    let mut s = BenchSettings::default();
+    s.fast_only.retain(|&n| n as u64 <= a.max_n);
+    s.common.retain(|&n| n as u64 <= a.max_n);
+    if let Some(seed) = g.seed {
+        s.seed = seed;
+    }
+    let rep = bench::run(&s, &|msg| note(g, msg))?;
+    let rec = serde_json::json!({
+        "format": "sleek/bench",
+        "format_version": sleek::io::FORMAT_VERSION,
+        "sleek_version": env!("CARGO_PKG_VERSION"),
+        "note": "wall-clock times of the trace of one chordal SLE_4 curve (tilted slits, t = 1) \
+                 with N equal steps; fast times include building the block tree",
+        "report": rep,
+    });
+    let text = serde_json::to_string_pretty(&rec).map_err(|e| Failure::Runtime(e.to_string()))?;
+    if let Some(p) = in_out(g, "bench.json") {
+        write_file(&p, text.as_bytes())?;
+        note(g, &format!("wrote {}", p.display()));
+    }
+    if g.json {
+        println!("{text}");
+        return Ok(());
+    }
+    println!(
+        "trace of chordal SLE_4 (tilted slits, N equal steps), {} threads",
+        rep.threads
+    );
+    println!(
+        "{:>9}  {:>12}  {:>12}  {:>9}  {:>10}",
+        "N", "direct (s)", "fast (s)", "speed-up", "peak MiB"
+    );
+    let mut ns: Vec<usize> = rep.timings.iter().map(|t| t.n).collect();
+    ns.dedup();
+    for n in ns {
+        let d = rep
+            .timings
+            .iter()
+            .find(|t| t.n == n && t.method == "direct");
+        let f = rep.timings.iter().find(|t| t.n == n && t.method == "fast");
+        let cell = |t: Option<&sleek::bench::Timing>| {
+            t.map(|t| format!("{:.4}", t.seconds))
+                .unwrap_or_else(|| "—".into())
+        };
+        let sp = match (d, f) {
+            (Some(d), Some(f)) => format!("{:.1}×", d.seconds / f.seconds),
+            _ => "—".into(),
+        };
+        let mem = f
+            .and_then(|t| t.peak_mib)
+            .map(|m| format!("{m:.0}"))
+            .unwrap_or_else(|| "—".into());
+        println!(
+            "{n:>9}  {:>12}  {:>12}  {sp:>9}  {mem:>10}",
+            cell(d),
+            cell(f)
+        );
+    }
+    println!(
+        "fitted exponent: direct {:.2} (over N ≤ {}), fast {:.2} (over N ≥ 10⁴)",
+        rep.direct_exponent,
+        s.common.last().copied().unwrap_or(0),
+        rep.fast_exponent
+    );
+    if let Some(x) = rep.speedup_1e5_extrapolated {
+        println!("speed-up at N = 10⁵: {x:.0}× (direct extrapolated from its fit, not run)");
+    }
+    for ag in &rep.agreement {
+        println!(
+            "κ = {}: max |fast − direct| / diameter = {:.2e} (N = {})",
+            ag.kappa, ag.max_deviation_rel, ag.n
+        );
+    }
+    Ok(())
+}
