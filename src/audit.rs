@@ -78,11 +78,25 @@ impl AuditSettings {
         if !(self.ratio.is_finite() && self.ratio > 0.0 && self.ratio <= 1.0) {
             return Err(Error::param("ratio", self.ratio, "a number in (0, 1]"));
         }
-        if !(self.point_step.is_finite() && self.point_step > 0.0 && self.point_step <= 1.0) {
+        if !(self.point_step.is_finite() && (1e-4..=1.0).contains(&self.point_step)) {
             return Err(Error::param(
                 "point-step",
                 self.point_step,
-                "a number in (0, 1]",
+                "a number in [1e-4, 1]",
+            ));
+        }
+        if !(self.horizon <= 1e12 && self.t_min >= 1e-12) {
+            return Err(Error::param("horizon", self.horizon, "at most 1e12"));
+        }
+        let base_steps = (self.horizon / self.t_min).ln() / self.ratio.ln_1p();
+        if !(base_steps <= 1e6) {
+            return Err(Error::param(
+                "ratio",
+                self.ratio,
+                format!(
+                    "large enough that the base grid has at most 1e6 steps (it would have \
+                     {base_steps:.1e})"
+                ),
             ));
         }
         if !(self.horizon.is_finite() && self.horizon > self.t_min && self.t_min > 0.0) {
@@ -254,7 +268,9 @@ pub fn exact_checks(n: usize) -> Result<Vec<CheckRow>> {
     for alpha in [0.15f64, 0.3, 0.7] {
         let c = 2.0 * (1.0 - 2.0 * alpha) / (alpha * (1.0 - alpha)).sqrt();
         let step = ChordalStep::tilted(0.0, c * t.sqrt(), t);
-        let tip = step.tip();
+        // The tip as the image of W_t under the map (not the closed form of `tip()`), so the
+        // check tests the map against the KNK angle.
+        let tip = step.inverse(Complex64::new(step.w_end, 0.0));
         let angle_err = (tip.arg() / std::f64::consts::PI - alpha).abs();
         rows.push(CheckRow {
             check: format!("W = c√t, α = {alpha}: angle of the one-step trace / π"),
@@ -359,11 +375,13 @@ fn left_passage_checks(
         .iter()
         .map(|&(x, y)| Complex64::new(x, y))
         .collect();
+    // Each κ its own streams, so rows for different κ are independent samples.
+    let kappa_seed = s.seed ^ kappa.to_bits().rotate_left(23);
     // One sample: indicator and residual per point. Collected in index order: thread-independent.
     let per_sample: Vec<(Vec<(bool, f64)>, usize)> = (0..s.samples as u64)
         .into_par_iter()
         .map(|i| {
-            let path = BrownianPath::geometric(kappa, s.t_min, s.horizon, s.ratio, s.seed, i)
+            let path = BrownianPath::geometric(kappa, s.t_min, s.horizon, s.ratio, kappa_seed, i)
                 .expect("validated settings");
             let (images, n) = flow_points(&path, s.step, &points, s.point_step);
             if i % 64 == 63 {
@@ -416,6 +434,9 @@ pub fn fmt_kappa(k: f64) -> String {
         if (k - num as f64 / den as f64).abs() < 1e-12 {
             return format!("{num}/{den}");
         }
+    }
+    if k != 0.0 && !(1e-3..1e4).contains(&k.abs()) {
+        return format!("{k:e}");
     }
     format!("{k}")
 }

@@ -38,9 +38,16 @@ impl Error {
         value: impl std::fmt::Display,
         expected: impl Into<String>,
     ) -> Self {
+        // Long decimal renderings of numbers (such as 1e-300) are shortened to scientific form.
+        let mut text = value.to_string();
+        if text.len() > 14 {
+            if let Ok(v) = text.parse::<f64>() {
+                text = format!("{v:e}");
+            }
+        }
         Error::InvalidParameter {
             name,
-            value: value.to_string(),
+            value: text,
             expected: expected.into(),
         }
     }

@@ -72,11 +72,24 @@ pub fn read_driving(reader: impl BufRead) -> Result<DrivingFunction> {
     DrivingFunction::new(t, w)
 }
 
-/// Write `bytes` to `path` atomically (temporary file in the same folder, then rename).
+/// Write `bytes` to `path` atomically (temporary file in the same folder, then rename); a
+/// target that is not a regular file is written in place.
 ///
 /// # Errors
 /// Any I/O error, with the path in the message.
 pub fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
+    // A target that exists and is not a regular file (a device, a pipe, a symbolic link) is
+    // written in place: renaming over it would replace it.
+    if let Ok(meta) = std::fs::symlink_metadata(path) {
+        if !meta.file_type().is_file() {
+            let mut f = std::fs::OpenOptions::new()
+                .write(true)
+                .truncate(true)
+                .open(path)?;
+            f.write_all(bytes)?;
+            return f.flush();
+        }
+    }
     let dir = path.parent().filter(|p| !p.as_os_str().is_empty());
     if let Some(d) = dir {
         std::fs::create_dir_all(d)?;

@@ -102,6 +102,14 @@ pub fn schramm_left_passage(kappa: f64, x: f64, y: f64) -> Result<f64> {
              it passes neither to the left nor to the right of z)",
         ));
     }
+    if kappa < 1e-4 {
+        return Err(Error::param(
+            "kappa",
+            kappa,
+            "kappa >= 1e-4 for Schramm's formula (below, the curve is the vertical ray to within \
+             rounding and the Gamma-function ratio loses its accuracy)",
+        ));
+    }
     if !x.is_finite() {
         return Err(Error::param("x", x, "a finite real part of z"));
     }

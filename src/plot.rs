@@ -180,12 +180,27 @@ impl PlaneFigure {
         let (_, total_h) = root.dim_in_pixel();
         let (upper, lower) = root.split_vertically(total_h - caption_h);
         let font = |px: u32| ("sans-serif", (px * s) as f64).into_font();
-        let mut chart = ChartBuilder::on(&upper)
-            .caption(&self.title, font(20))
-            .margin(12 * s)
-            .x_label_area_size(40 * s)
-            .y_label_area_size(56 * s)
-            .build_cartesian_2d(x0..x1, y0..y1)?;
+        let build = |x0: f64, x1: f64, y0: f64, y1: f64| {
+            ChartBuilder::on(&upper)
+                .caption(&self.title, font(20))
+                .margin(12 * s)
+                .x_label_area_size(40 * s)
+                .y_label_area_size(56 * s)
+                .build_cartesian_2d(x0..x1, y0..y1)
+        };
+        // Equal scales: measure the plotting area once, widen the ranges to its exact aspect,
+        // and lay the chart out again.
+        let (pw, ph) = build(x0, x1, y0, y1)?.plotting_area().dim_in_pixel();
+        let (x0, x1, y0, y1) = widen_to_aspect(
+            x0,
+            x1,
+            y0,
+            y1,
+            ph as f64 / pw.max(1) as f64,
+            self.domain == ChordalDomain::HalfPlane,
+        );
+        upper.fill(&WHITE)?;
+        let mut chart = build(x0, x1, y0, y1)?;
         let tick = |v: &f64, span: f64| {
             // Avoid "-0.0" and keep as many decimals as the span needs.
             let v = if v.abs() < 1e-9 * span { 0.0 } else { *v };

@@ -131,6 +131,16 @@ impl ChordalSle {
     ) -> Result<Self> {
         check_kappa(kappa)?;
         check_time(time)?;
+        if kappa > 1e4 {
+            return Err(Error::param("kappa", kappa, "a number in (0, 1e4]"));
+        }
+        if !(1e-12..=1e12).contains(&time) {
+            return Err(Error::param(
+                "time",
+                time,
+                "a number in [1e-12, 1e12] (rescale: SLE at time t is √t times SLE at time 1)",
+            ));
+        }
         match resolution {
             Resolution::Points(n) => {
                 if n == 0 || n > crate::driving::MAX_BASE_STEPS {

@@ -41,37 +41,53 @@ fn schramm_formula_at_several_points() {
 }
 
 /// The discretisation error must shrink as the step shrinks. On the same Brownian paths:
-/// (1) the mean endpoint error of the trace at t = 1 decreases with N for both step kinds with
-/// an observed order above 0.5, the tilted error staying below the vertical one (measured:
-/// orders ≈ 0.75, tilted ≈ 0.8 × vertical); (2) for left passage, the fraction of sides that
-/// differ from the finest walk decreases from ε = 8ε₀ to ε = 2ε₀ (1000 coupled curves).
+/// (1) the mean endpoint error of the trace at t = 1 (200 paths, each mean with its standard
+/// error s) falls from N = 32 to N = 2048 by far more than the noise (difference > 10 √(s₁²+s₂²);
+/// measured ratio ≈ 20), with an observed order above 0.5 for both step kinds (measured ≈ 0.75);
+/// (2) tilted slits beat vertical ones at the coarsest N by more than 3σ (measured 0.050 ± 0.0025
+/// vs 0.068 ± 0.0037; paired differences would be tighter still); (3) for left passage, the
+/// fraction of sides that differ from the finest walk decreases from ε = 8ε₀ to 2ε₀ by more than
+/// 2σ (1000 coupled curves).
 #[test]
 fn discretisation_error_shrinks_with_the_step() {
     let s = AuditSettings::quick(7);
     let rep = audit::run(&s, &|_, _| {}).unwrap();
-    let study = |prefix: &str, step: &str| -> Vec<(f64, f64, f64)> {
+    let study = |prefix: &str, step: &str| -> Vec<(f64, f64, f64, f64)> {
         rep.convergence
             .iter()
             .filter(|c| c.study.starts_with(prefix) && c.step.name() == step)
-            .map(|c| (c.resolution, c.error, c.observed_order))
+            .map(|c| {
+                (
+                    c.resolution,
+                    c.error,
+                    c.std_error.unwrap_or(0.0),
+                    c.observed_order,
+                )
+            })
             .collect()
     };
     let tilted = study("Brownian driving", "tilted");
     let vertical = study("Brownian driving", "vertical");
     assert_eq!(tilted.len(), 7);
-    for w in tilted.windows(2).chain(vertical.windows(2)) {
-        assert!(w[1].1 < w[0].1, "error did not shrink: {w:?}");
+    for v in [&tilted, &vertical] {
+        let (first, last) = (v[0], v[v.len() - 1]);
+        let sigma = (first.2.powi(2) + last.2.powi(2)).sqrt();
+        assert!(
+            first.1 - last.1 > 10.0 * sigma,
+            "error did not shrink: {v:?}"
+        );
+        assert!(first.3 > 0.5, "order {}", first.3);
     }
+    let (t, v) = (tilted[0], vertical[0]);
     assert!(
-        tilted[0].2 > 0.5 && vertical[0].2 > 0.5,
-        "orders {} {}",
-        tilted[0].2,
-        vertical[0].2
+        v.1 - t.1 > 3.0 * (t.2.powi(2) + v.2.powi(2)).sqrt(),
+        "tilted {t:?} vs vertical {v:?}"
     );
-    for (t, v) in tilted.iter().zip(&vertical) {
-        assert!(t.1 < v.1, "tilted {t:?} vs vertical {v:?}");
-    }
     let lp = study("left passage", "tilted");
     assert_eq!(lp.len(), 3);
-    assert!(lp[0].1 > lp[2].1, "side flips did not decrease: {lp:?}");
+    let sigma = (lp[0].2.powi(2) + lp[2].2.powi(2)).sqrt();
+    assert!(
+        lp[0].1 - lp[2].1 > 2.0 * sigma,
+        "side flips did not decrease: {lp:?}"
+    );
 }

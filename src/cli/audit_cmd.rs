@@ -1,6 +1,7 @@
 //! `sleek audit`: checks against published exact results.
 
 use super::args::{AuditArgs, Global};
+use super::common::out;
 use super::common::{in_out, note, progress, resolve_seed, write_file};
 use super::trace_cmd::step_kind;
 use super::Failure;
@@ -60,12 +61,8 @@ pub fn run(g: &Global, a: &AuditArgs) -> Result<(), Failure> {
     s.validate()?;
     s.seed = resolve_seed(g);
     let (report, elapsed) = run_audit(g, &s)?;
-    if let (Some(md), Some(js)) = (in_out(g, "audit.md"), in_out(g, "audit.json")) {
-        write_reports(&report, elapsed, &md, &js)?;
-        note(g, &format!("wrote {} and {}", md.display(), js.display()));
-    }
     if g.json {
-        println!(
+        out!(
             "{}",
             serde_json::to_string_pretty(&audit_record(&report, elapsed))
                 .map_err(|e| Failure::Runtime(e.to_string()))?
@@ -74,6 +71,11 @@ pub fn run(g: &Global, a: &AuditArgs) -> Result<(), Failure> {
         let mut out = std::io::stdout().lock();
         sleek::report::write_table(&mut out, &report)
             .map_err(|e| Failure::Runtime(e.to_string()))?;
+    }
+    // Files after the table, so that a bad --out cannot lose what was computed.
+    if let (Some(md), Some(js)) = (in_out(g, "audit.md"), in_out(g, "audit.json")) {
+        write_reports(&report, elapsed, &md, &js)?;
+        note(g, &format!("wrote {} and {}", md.display(), js.display()));
     }
     if !report.passed() {
         return Err(Failure::Runtime(

@@ -1,6 +1,7 @@
 //! `sleek bench`: direct against fast trace evaluation, in one run.
 
 use super::args::{BenchArgs, Global};
+use super::common::out;
 use super::common::{in_out, note, write_file};
 use super::Failure;
 use sleek::bench::{self, BenchSettings};
@@ -27,16 +28,20 @@ pub fn run(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
         note(g, &format!("wrote {}", p.display()));
     }
     if g.json {
-        println!("{text}");
+        out!("{text}");
         return Ok(());
     }
-    println!(
+    out!(
         "trace of chordal SLE_4 (tilted slits, N equal steps), {} threads",
         rep.threads
     );
-    println!(
+    out!(
         "{:>9}  {:>12}  {:>12}  {:>9}  {:>10}",
-        "N", "direct (s)", "fast (s)", "speed-up", "peak MiB"
+        "N",
+        "direct (s)",
+        "fast (s)",
+        "speed-up",
+        "peak MiB"
     );
     let mut ns: Vec<usize> = rep.timings.iter().map(|t| t.n).collect();
     ns.dedup();
@@ -58,25 +63,27 @@ pub fn run(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
             .and_then(|t| t.peak_mib)
             .map(|m| format!("{m:.0}"))
             .unwrap_or_else(|| "—".into());
-        println!(
+        out!(
             "{n:>9}  {:>12}  {:>12}  {sp:>9}  {mem:>10}",
             cell(d),
             cell(f)
         );
     }
-    println!(
+    out!(
         "fitted exponent: direct {:.2} (over N ≤ {}), fast {:.2} (over N ≥ 10⁴)",
         rep.direct_exponent,
         s.common.last().copied().unwrap_or(0),
         rep.fast_exponent
     );
     if let Some(x) = rep.speedup_1e5_extrapolated {
-        println!("speed-up at N = 10⁵: {x:.0}× (direct extrapolated from its fit, not run)");
+        out!("speed-up at N = 10⁵: {x:.0}× (direct extrapolated from its fit, not run)");
     }
     for ag in &rep.agreement {
-        println!(
+        out!(
             "κ = {}: max |fast − direct| / diameter = {:.2e} (N = {})",
-            ag.kappa, ag.max_deviation_rel, ag.n
+            ag.kappa,
+            ag.max_deviation_rel,
+            ag.n
         );
     }
     Ok(())

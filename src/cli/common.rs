@@ -54,3 +54,30 @@ pub fn write_file(path: &Path, bytes: &[u8]) -> Result<(), Failure> {
 pub fn in_out(g: &Global, name: &str) -> Option<PathBuf> {
     g.out.as_ref().map(|d| d.join(name))
 }
+
+/// Write one line to stdout; a closed pipe (e.g. `| head`) ends the program quietly, any other
+/// failure is a runtime error.
+pub fn emit(args: std::fmt::Arguments) -> Result<(), Failure> {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    out.write_fmt(args)
+        .and_then(|_| out.write_all(b"\n"))
+        .map_err(stdout_failure)
+}
+
+/// Classify a failure to write to stdout.
+pub fn stdout_failure(e: std::io::Error) -> Failure {
+    if e.kind() == std::io::ErrorKind::BrokenPipe {
+        Failure::Quiet
+    } else {
+        Failure::Runtime(format!("cannot write to standard output: {e}"))
+    }
+}
+
+/// `println!` that returns a [`Failure`] instead of panicking when stdout fails.
+macro_rules! out {
+    ($($t:tt)*) => {
+        $crate::cli::common::emit(format_args!($($t)*))?
+    };
+}
+pub(crate) use out;

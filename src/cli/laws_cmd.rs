@@ -1,6 +1,7 @@
 //! `sleek laws`: exact values for one κ.
 
 use super::args::{Global, LawsArgs};
+use super::common::out;
 use super::Failure;
 use serde::Serialize;
 use sleek::audit::fmt_kappa;
@@ -131,27 +132,27 @@ pub fn run(g: &Global, a: &LawsArgs) -> Result<(), Failure> {
         cle_note,
     };
     if g.json {
-        println!(
+        out!(
             "{}",
             serde_json::to_string_pretty(&rec).map_err(|e| Failure::Runtime(e.to_string()))?
         );
         return Ok(());
     }
-    println!("SLE_κ with κ = {}", fmt_kappa(k));
-    println!(
+    out!("SLE_κ with κ = {}", fmt_kappa(k));
+    out!(
         "  {:<34} {:<14} {}",
         "dimension of the trace",
         format!("{:.6}", rec.trace_dimension),
         rec.trace_dimension_source
     );
-    println!(
+    out!(
         "  {:<34} {:<14} {}",
         "phase",
         rec.phase.describe(),
         rec.phase_source
     );
     for lp in &rec.left_passage {
-        println!(
+        out!(
             "  {:<34} {:<14} {}",
             format!("P(passes left of {}{:+}i)", lp.x, lp.y),
             format!("{:.6}", lp.probability),
@@ -159,31 +160,33 @@ pub fn run(g: &Global, a: &LawsArgs) -> Result<(), Failure> {
         );
     }
     if let Some(n) = &rec.left_passage_note {
-        println!("  left passage: {n}");
+        out!("  left passage: {n}");
     }
     match &rec.cle {
         Some(c) => {
-            println!("CLE_κ in the unit disk, {} — {}", c.observable, c.source);
-            println!(
+            out!("CLE_κ in the unit disk, {} — {}", c.observable, c.source);
+            out!(
                 "  {:<34} {:.8}",
-                "λ* (tail: P(T > t) ~ C e^{−λ* t})", c.lambda_star
+                "λ* (tail: P(T > t) ~ C e^{−λ* t})",
+                c.lambda_star
             );
-            println!(
+            out!(
                 "  {:<34} {:.8}",
-                "gasket dimension 2 − λ*", c.gasket_dimension
+                "gasket dimension 2 − λ*",
+                c.gasket_dimension
             );
-            println!("  {:<34} {:.8}", "E[T]", c.mean_t);
-            println!("  {:<34} {:.8}", "Var[T]", c.var_t);
+            out!("  {:<34} {:.8}", "E[T]", c.mean_t);
+            out!("  {:<34} {:.8}", "Var[T]", c.var_t);
             for m in &c.cr_moments {
                 let label = format!("E[CR^λ], λ = {}", m.lambda);
                 match (m.value, &m.note) {
-                    (Some(v), _) => println!("  {label:<34} {v:.10}"),
-                    (None, Some(n)) => println!("  {label:<34} — ({n})"),
+                    (Some(v), _) => out!("  {label:<34} {v:.10}"),
+                    (None, Some(n)) => out!("  {label:<34} — ({n})"),
                     _ => {}
                 }
             }
         }
-        None => println!("CLE_κ: {}", rec.cle_note.as_deref().unwrap_or("")),
+        None => out!("CLE_κ: {}", rec.cle_note.as_deref().unwrap_or("")),
     }
     Ok(())
 }

@@ -20,6 +20,8 @@ pub enum Failure {
     Usage(String),
     /// Something failed while running (exit 1).
     Runtime(String),
+    /// Standard output was closed by its reader: stop without a message (exit 0).
+    Quiet,
 }
 
 impl From<sleek::Error> for Failure {
@@ -85,5 +87,6 @@ pub fn main() -> ExitCode {
             eprintln!("sleek: error: {m}");
             ExitCode::from(1)
         }
+        Err(Failure::Quiet) => ExitCode::SUCCESS,
     }
 }

@@ -4,6 +4,7 @@
 use super::args::{DomainArg, Global, MethodArg, StepArg, TraceArgs};
 use super::audit_cmd::{run_audit, write_reports};
 use super::common::note;
+use super::common::out;
 use super::trace_cmd::{export, sample};
 use super::Failure;
 use sleek::audit::AuditSettings;
@@ -168,15 +169,11 @@ pub fn run(g: &Global) -> Result<(), Failure> {
     write_reports(&report, elapsed, &md, &js)?;
     written.push(md.display().to_string());
     written.push(js.display().to_string());
-    let mut stdout = std::io::stdout().lock();
-    use std::io::Write;
-    let _ = writeln!(
-        stdout,
+    out!(
         "sleek tour (seed {seed}) — {:.1} s",
         start.elapsed().as_secs_f64()
     );
-    let _ = writeln!(
-        stdout,
+    out!(
         "audit: {} checks, {} failed",
         report.checks.len(),
         report
@@ -186,7 +183,7 @@ pub fn run(g: &Global) -> Result<(), Failure> {
             .count()
     );
     for w in &written {
-        let _ = writeln!(stdout, "  {w}");
+        out!("  {w}");
     }
     if !report.passed() {
         return Err(Failure::Runtime(format!(

@@ -1,6 +1,7 @@
 //! `sleek trace`: chordal SLE_κ curves, or the trace of a given driving function.
 
 use super::args::{DomainArg, Global, MethodArg, StepArg, TraceArgs};
+use super::common::out;
 use super::common::{in_out, note, progress, resolve_seed, warn, write_file};
 use super::Failure;
 use rayon::prelude::*;
@@ -152,15 +153,30 @@ pub fn sample(g: &Global, a: &TraceArgs) -> Result<TraceRun, Failure> {
     let kappa = a
         .kappa
         .ok_or_else(|| Failure::Usage("--kappa is required".into()))?;
-    if kappa > 8.0 {
-        warn(&format!(
-            "κ = {kappa} > 8: SLE_κ is space-filling; the discretised trace fills the plane only \
-             down to its spacing, and the figure shows a dense scribble"
-        ));
-    }
     let time = a.time.unwrap_or(1.0);
     let res = resolution_of(a, time);
     let sampler = ChordalSle::new(kappa, time, res, step, meth)?;
+    if kappa > 8.0 {
+        warn(&format!(
+            "κ = {} > 8: SLE_κ is space-filling; the discretised trace fills the plane only \
+             down to its spacing, and the figure shows a dense scribble",
+            fmt_kappa(kappa)
+        ));
+    }
+    // All curves are held in memory until exported: refuse runs that cannot fit.
+    let per_curve = match res {
+        Resolution::Points(n) => n as f64,
+        Resolution::Spacing(r) => (r.max_points as f64).min(2e4),
+    };
+    let bytes = a.count as f64 * (per_curve + 1.0) * 200.0;
+    if bytes > 16.0 * (1u64 << 30) as f64 {
+        return Err(Failure::Usage(format!(
+            "--count {} needs about {:.0} GiB for its curves (≈ 200 bytes a point); the limit is \
+             16 GiB: run fewer curves at a time (each curve depends only on --seed and its index)",
+            a.count,
+            bytes / (1u64 << 30) as f64
+        )));
+    }
     let seed = resolve_seed(g);
     let pb = progress(g, a.count, "curves");
     let curves: Vec<ChordalCurve> = (0..a.count)
@@ -242,22 +258,36 @@ pub fn export(
     json: Option<&Path>,
     plot: Option<&Path>,
 ) -> Result<Vec<String>, Failure> {
+    // Attempt every output even when one fails, then report the first failure.
     let mut written = Vec::new();
+    let mut failures = Vec::new();
+    let mut attempt = |p: &Path, r: Result<(), Failure>| match r {
+        Ok(()) => written.push(p.display().to_string()),
+        Err(e) => failures.push(e),
+    };
     if let Some(p) = csv {
         let mut buf = Vec::new();
-        write_trace_csv(&mut buf, &run.curves, run.domain)?;
-        write_file(p, &buf)?;
-        written.push(p.display().to_string());
+        attempt(
+            p,
+            write_trace_csv(&mut buf, &run.curves, run.domain)
+                .map_err(Failure::from)
+                .and_then(|_| write_file(p, &buf)),
+        );
     }
     if let Some(p) = json {
         let mut buf = Vec::new();
-        write_trace_json(&mut buf, &run.curves, &run.settings, run.domain)?;
-        write_file(p, &buf)?;
-        written.push(p.display().to_string());
+        attempt(
+            p,
+            write_trace_json(&mut buf, &run.curves, &run.settings, run.domain)
+                .map_err(Failure::from)
+                .and_then(|_| write_file(p, &buf)),
+        );
     }
     if let Some(p) = plot {
-        figure(run).draw(p)?;
-        written.push(p.display().to_string());
+        attempt(p, figure(run).draw(p).map_err(Failure::from));
+    }
+    if let Some(e) = failures.into_iter().next() {
+        return Err(e);
     }
     Ok(written)
 }
@@ -284,19 +314,27 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
         ));
     }
     // Exports first: nothing computed is lost if printing fails.
-    let mut written = export(
+    let mut written = Vec::new();
+    let mut export_error = None;
+    let mut keep = |r: Result<Vec<String>, Failure>| match r {
+        Ok(w) => written.extend(w),
+        Err(e) => {
+            export_error.get_or_insert(e);
+        }
+    };
+    keep(export(
         &run,
         a.export_csv.as_deref(),
         a.export_json.as_deref(),
         a.plot.as_deref(),
-    )?;
+    ));
     if g.out.is_some() {
-        written.extend(export(
+        keep(export(
             &run,
             in_out(g, "trace.csv").as_deref(),
             in_out(g, "trace.json").as_deref(),
             in_out(g, "trace.svg").as_deref(),
-        )?);
+        ));
     }
     let summaries: Vec<CurveSummary> = run
         .curves
@@ -325,13 +363,13 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
             settings: &run.settings,
             curves: summaries,
         };
-        println!(
+        out!(
             "{}",
             serde_json::to_string_pretty(&s).map_err(|e| Failure::Runtime(e.to_string()))?
         );
     } else {
         let s = &run.settings;
-        println!(
+        out!(
             "{}: t = {} (hcap {}), {} slits, {} method",
             match s.kappa {
                 Some(k) => format!(
@@ -346,13 +384,18 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
             s.step,
             s.method
         );
-        println!("resolution: {}", s.resolution);
-        println!(
+        out!("resolution: {}", s.resolution);
+        out!(
             "{:>6}  {:>8}  {:>12}  {:>7}  {:>26}  {:>8}",
-            "curve", "points", "max spacing", "target", "end point (in domain)", "height"
+            "curve",
+            "points",
+            "max spacing",
+            "target",
+            "end point (in domain)",
+            "height"
         );
         for c in &summaries {
-            println!(
+            out!(
                 "{:>6}  {:>8}  {:>12.3e}  {:>7}  {:>12.5} {:>+12.5}i  {:>8.4}",
                 c.curve,
                 c.samples,
@@ -367,5 +410,8 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
     for w in written {
         note(g, &format!("wrote {w}"));
     }
-    Ok(())
+    match export_error {
+        Some(e) => Err(e),
+        None => Ok(()),
+    }
 }
