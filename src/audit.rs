@@ -89,7 +89,7 @@ impl AuditSettings {
             return Err(Error::param("horizon", self.horizon, "at most 1e12"));
         }
         let base_steps = (self.horizon / self.t_min).ln() / self.ratio.ln_1p();
-        if !(base_steps <= 1e6) {
+        if base_steps.is_nan() || base_steps > 1e6 {
             return Err(Error::param(
                 "ratio",
                 self.ratio,

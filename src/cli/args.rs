@@ -33,7 +33,8 @@ pub struct Global {
     #[arg(long, global = true)]
     pub json: bool,
     /// Folder for the command's standard output files: trace.{csv,json,svg} for trace,
-    /// audit.{md,json} for audit, the gallery and report for the tour (default output/).
+    /// audit.{md,json} for audit, bench.json for bench, the gallery and report for the tour
+    /// (default output/); laws only prints.
     #[arg(long, global = true, value_name = "DIR")]
     pub out: Option<PathBuf>,
     /// No progress bars or notes on stderr (errors and warnings are still shown).
