@@ -141,6 +141,9 @@ pub enum Verdict {
     Fail,
     /// Reported for information (no tolerance applies).
     Info,
+    /// Within tolerance, but the bias bound (finite horizon) exceeds a quarter of the standard
+    /// error, so the check cannot tell: lengthen `horizon` or lower `samples`.
+    Inconclusive,
 }
 
 /// One row of the audit table.
@@ -418,10 +421,12 @@ fn left_passage_checks(
                 s.point_step,
                 steps.mean()
             ),
-            verdict: if dev.abs() <= s.sigma_limit {
-                Verdict::Pass
-            } else {
+            verdict: if dev.abs() > s.sigma_limit {
                 Verdict::Fail
+            } else if residual.mean() > 0.25 * se {
+                Verdict::Inconclusive
+            } else {
+                Verdict::Pass
             },
         });
     }

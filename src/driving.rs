@@ -13,6 +13,7 @@
 
 use crate::error::{Error, Result};
 use crate::rng;
+use rand::RngCore;
 use rand_distr::{Distribution, StandardNormal};
 
 /// A sampled driving function `t ↦ W_t` on a strictly increasing grid starting at `t = 0`.
@@ -426,7 +427,11 @@ impl BrownianPath {
         let block = (1u64 << 63) | ((base as u64) << 41) | heap;
         let mut g = rng::stream(self.seed, rng::Tag::Driving, self.stream);
         rng::seek_block(&mut g, block);
-        StandardNormal.sample(&mut g)
+        // Box–Muller from the block's first two 64-bit words: the normal never reads past its
+        // own 16-word block, so addresses cannot overlap.
+        let u1 = 1.0 - (g.next_u64() >> 11) as f64 * (1.0 / (1u64 << 53) as f64); // (0, 1]
+        let u2 = (g.next_u64() >> 11) as f64 * (1.0 / (1u64 << 53) as f64);
+        (-2.0 * u1.ln()).sqrt() * (std::f64::consts::TAU * u2).cos()
     }
 }
 

@@ -127,6 +127,8 @@ pub struct TraceSettings {
     pub method: &'static str,
     /// Resolution, as a short human-readable description.
     pub resolution: String,
+    /// The resolution settings, machine-readable (absent for a user-given driving function).
+    pub resolution_settings: Option<crate::sle::Resolution>,
     /// Domain the points are given in.
     pub domain: &'static str,
     /// Where the driving function came from (`brownian` or the file name).

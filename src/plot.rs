@@ -145,17 +145,32 @@ impl PlaneFigure {
             std::fs::create_dir_all(parent).map_err(|e| out_err(path, e))?;
         }
         match ext.as_str() {
+            // Render in memory, then write atomically (temporary file and rename).
             "svg" => {
-                let root = SVGBackend::new(path, (w, h)).into_drawing_area();
-                self.render(&root, (x0, x1, y0, y1), &caption, caption_h, 1)
-                    .map_err(|e| out_err(path, e))?;
-                root.present().map_err(|e| out_err(path, e))
+                let mut text = String::new();
+                {
+                    let root = SVGBackend::with_string(&mut text, (w, h)).into_drawing_area();
+                    self.render(&root, (x0, x1, y0, y1), &caption, caption_h, 1)
+                        .map_err(|e| out_err(path, e))?;
+                    root.present().map_err(|e| out_err(path, e))?;
+                }
+                crate::io::write_atomic(path, text.as_bytes()).map_err(|e| out_err(path, e))
             }
             "png" => {
-                let root = BitMapBackend::new(path, (w * scale, h * scale)).into_drawing_area();
-                self.render(&root, (x0, x1, y0, y1), &caption, caption_h * scale, scale)
+                let (pw, ph) = (w * scale, h * scale);
+                let mut rgb = vec![255u8; (pw * ph * 3) as usize];
+                {
+                    let root = BitMapBackend::with_buffer(&mut rgb, (pw, ph)).into_drawing_area();
+                    self.render(&root, (x0, x1, y0, y1), &caption, caption_h * scale, scale)
+                        .map_err(|e| out_err(path, e))?;
+                    root.present().map_err(|e| out_err(path, e))?;
+                }
+                let img = image::RgbImage::from_raw(pw, ph, rgb)
+                    .ok_or_else(|| out_err(path, "image buffer has the wrong size"))?;
+                let mut png = std::io::Cursor::new(Vec::new());
+                img.write_to(&mut png, image::ImageOutputFormat::Png)
                     .map_err(|e| out_err(path, e))?;
-                root.present().map_err(|e| out_err(path, e))
+                crate::io::write_atomic(path, png.get_ref()).map_err(|e| out_err(path, e))
             }
             _ => Err(Error::param(
                 "plot",

@@ -26,6 +26,7 @@ fn verdict_word(v: Verdict) -> &'static str {
         Verdict::Pass => "pass",
         Verdict::Fail => "FAIL",
         Verdict::Info => "info",
+        Verdict::Inconclusive => "inconclusive",
     }
 }
 
@@ -40,8 +41,16 @@ fn sigma_cell(r: &CheckRow) -> String {
 /// # Errors
 /// I/O errors of `out`.
 pub fn write_table(out: &mut impl Write, report: &AuditReport) -> io::Result<()> {
-    let head = ["check", "estimate", "exact", "dev/σ", "bias ≤", "verdict"];
-    let rows: Vec<[String; 6]> = report
+    let head = [
+        "check",
+        "estimate",
+        "exact",
+        "dev/σ",
+        "bias ≤",
+        "verdict",
+        "resolution",
+    ];
+    let rows: Vec<[String; 7]> = report
         .checks
         .iter()
         .map(|r| {
@@ -52,6 +61,7 @@ pub fn write_table(out: &mut impl Write, report: &AuditReport) -> io::Result<()>
                 sigma_cell(r),
                 r.bias_bound.map(fmt_num).unwrap_or_else(|| "—".into()),
                 verdict_word(r.verdict).into(),
+                r.resolution.clone(),
             ]
         })
         .collect();
@@ -77,7 +87,7 @@ pub fn write_table(out: &mut impl Write, report: &AuditReport) -> io::Result<()>
     let mut last_source = "";
     for (r, cells) in report.checks.iter().zip(&rows) {
         if r.source != last_source {
-            writeln!(out, "# source: {}; resolution: {}", r.source, r.resolution)?;
+            writeln!(out, "# source: {}", r.source)?;
             last_source = r.source;
         }
         line(out, cells)?;

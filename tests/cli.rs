@@ -243,3 +243,56 @@ fn space_filling_kappa_warns() {
         "{err}"
     );
 }
+
+#[test]
+fn hostile_values_are_refused_not_panicked_on() {
+    assert_usage_error(
+        &["trace", "--kappa", "2", "--time", "1e308"],
+        &["time", "1e12"],
+    );
+    assert_usage_error(
+        &["trace", "--kappa", "2", "--time", "1e-320"],
+        &["time", "1e-12"],
+    );
+    assert_usage_error(&["trace", "--kappa", "1e300"], &["kappa", "1e4"]);
+    assert_usage_error(
+        &[
+            "trace",
+            "--kappa",
+            "2",
+            "--count",
+            "18446744073709551615",
+            "--points",
+            "4",
+        ],
+        &["--count", "GiB"],
+    );
+    assert_usage_error(&["audit", "--ratio", "1e-17"], &["ratio", "1e6 steps"]);
+    assert_usage_error(&["audit", "--point-step", "1e-300"], &["point-step"]);
+    assert_usage_error(&["laws", "--kappa", "1e-16"], &["kappa", "1e-4"]);
+}
+
+#[test]
+fn closed_stdout_is_not_a_panic() {
+    use std::io::Read;
+    use std::process::{Command as P, Stdio};
+    let mut child = P::new(assert_cmd::cargo::cargo_bin("sleek"))
+        .args([
+            "trace", "--kappa", "3", "--points", "20", "--count", "400", "--seed", "1", "-q",
+        ])
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    drop(child.stdout.take()); // the reader goes away before the table is printed
+    let mut err = String::new();
+    child
+        .stderr
+        .take()
+        .unwrap()
+        .read_to_string(&mut err)
+        .unwrap();
+    let status = child.wait().unwrap();
+    assert!(!err.contains("panicked"), "{err}");
+    assert!(status.code().is_some(), "killed by a signal");
+}

@@ -134,6 +134,7 @@ pub fn sample(g: &Global, a: &TraceArgs) -> Result<TraceRun, Failure> {
             step: step.name(),
             method: meth.name(),
             resolution: format!("{} steps of the given driving function", d.steps()),
+            resolution_settings: None,
             domain: dom.name(),
             driving_source: path.display().to_string(),
         };
@@ -195,6 +196,7 @@ pub fn sample(g: &Global, a: &TraceArgs) -> Result<TraceRun, Failure> {
         step: step.name(),
         method: meth.name(),
         resolution: describe_resolution(&res),
+        resolution_settings: Some(res),
         domain: dom.name(),
         driving_source: "brownian".into(),
     };
