@@ -113,6 +113,9 @@ pub struct ChordalCurve {
     /// For adaptive runs: whether every spacing met the target (false when `max_points` or the
     /// deepest bisection level stopped refinement). Always true for equal steps.
     pub target_met: bool,
+    /// Steps that still miss the target although bisected to [`MAX_BISECTION_LEVEL`]: places
+    /// where the curve moves far in little capacity time (a slow clock), not a budget problem.
+    pub depth_limited: usize,
     /// Number of refinement passes used.
     pub passes: usize,
 }
@@ -202,6 +205,7 @@ impl ChordalSle {
                     driving: path.driving().clone(),
                     points,
                     target_met: true,
+                    depth_limited: 0,
                     passes: 1,
                 }
             }
@@ -224,14 +228,14 @@ impl ChordalSle {
             let start = points[0];
             let n = points.len() - 1;
             let mut requests: Vec<(f64, usize, u8)> = Vec::new();
-            let mut blocked = false;
+            let mut blocked = 0usize;
             for k in 0..n {
                 let d = (points[k + 1] - points[k]).norm();
                 let allowed =
                     rule.allowed((points[k] - start).norm(), (points[k + 1] - start).norm());
                 if d > allowed {
                     if path.depth(k) >= MAX_BISECTION_LEVEL {
-                        blocked = true;
+                        blocked += 1;
                         continue;
                     }
                     // Spacing scales like √Δt at typical times: split into ≈ (d/allowed)² pieces.
@@ -265,7 +269,8 @@ impl ChordalSle {
                     max_spacing: max_spacing(&points),
                     driving: path.driving().clone(),
                     points,
-                    target_met: requests.is_empty() && !blocked,
+                    target_met: requests.is_empty() && blocked == 0,
+                    depth_limited: blocked,
                     passes,
                 };
             }

@@ -118,7 +118,8 @@ pub struct TraceArgs {
     #[arg(long, value_parser = parse_positive)]
     pub spacing: Option<f64>,
     /// Refine until consecutive points are at most this fraction of their distance from the
-    /// start point apart (scale-invariant; default 0.05 when no resolution is given).
+    /// start point apart (scale-invariant). With no resolution option the default is
+    /// --spacing 0.02·√t together with --spacing-rel 0.05.
     #[arg(long, value_parser = parse_fraction)]
     pub spacing_rel: Option<f64>,
     /// With --spacing-rel: distances from the start below this count as this

@@ -49,6 +49,7 @@ struct CurveSummary {
     samples: usize,
     max_spacing_in_h: f64,
     target_met: bool,
+    depth_limited_steps: usize,
     refinement_passes: usize,
     end_x: f64,
     end_y: f64,
@@ -69,16 +70,17 @@ fn resolution_of(a: &TraceArgs, time: f64) -> Resolution {
     if let Some(n) = a.points {
         return Resolution::Points(n as usize);
     }
-    let relative = match (a.spacing, a.spacing_rel) {
-        (None, None) => Some(0.05),
-        (_, r) => r,
+    // Default: 0.02·√t apart, and 5% of the distance from the start near the start.
+    let (absolute, relative) = match (a.spacing, a.spacing_rel) {
+        (None, None) => (Some(0.02 * time.sqrt()), Some(0.05)),
+        other => other,
     };
     Resolution::Spacing(SpacingRule {
-        absolute: a.spacing,
+        absolute,
         relative,
         inner_radius: a.inner_radius.unwrap_or(2e-2 * time.sqrt()),
-        base_steps: a.base_steps.min(1 << 20) as usize,
-        max_points: a.max_points.min(usize::MAX as u64) as usize,
+        base_steps: usize::try_from(a.base_steps).unwrap_or(usize::MAX),
+        max_points: usize::try_from(a.max_points).unwrap_or(usize::MAX),
     })
 }
 
@@ -145,6 +147,7 @@ pub fn sample(g: &Global, a: &TraceArgs) -> Result<TraceRun, Failure> {
                 driving: d,
                 points,
                 target_met: true,
+                depth_limited: 0,
                 passes: 1,
             }],
             settings,
@@ -233,7 +236,9 @@ pub fn figure(run: &TraceRun) -> PlaneFigure {
     ];
     if run.curves.iter().any(|c| !c.target_met) {
         caption.push(
-            "warning: the spacing target was not met on every curve (see --max-points)".into(),
+            "warning: the spacing target was not met everywhere (at most --max-points, or steps \
+             bisected to the deepest level where capacity time moves slowly)"
+                .into(),
         );
     }
     PlaneFigure {
@@ -307,9 +312,17 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
     let run = sample(g, a)?;
     let unmet: Vec<&ChordalCurve> = run.curves.iter().filter(|c| !c.target_met).collect();
     if !unmet.is_empty() {
+        let deep: usize = unmet.iter().map(|c| c.depth_limited).sum();
+        let why = if deep > 0 {
+            format!(
+                "{deep} steps were bisected to the deepest level (2^-40 of a base step) where the \
+                 curve moves far in little capacity time; the rest, if any, hit --max-points"
+            )
+        } else {
+            "raise --max-points or loosen --spacing/--spacing-rel".to_string()
+        };
         warn(&format!(
-            "spacing target not met on {} of {} curves (reached max spacing {:.3e}); raise \
-             --max-points or loosen --spacing/--spacing-rel",
+            "spacing target not met on {} of {} curves (largest spacing {:.3e}): {why}",
             unmet.len(),
             run.curves.len(),
             unmet.iter().map(|c| c.max_spacing).fold(0.0, f64::max)
@@ -350,6 +363,7 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
                 samples: c.points.len(),
                 max_spacing_in_h: c.max_spacing,
                 target_met: c.target_met,
+                depth_limited_steps: c.depth_limited,
                 refinement_passes: c.passes,
                 end_x: end.re,
                 end_y: end.im,
