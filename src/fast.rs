@@ -17,9 +17,40 @@
 //! Building the tree costs O(N log N) evaluations of real boundary points plus O(N) series
 //! evaluations; evaluating a trace point costs O(log N) blocks when the point is far from most
 //! of the curve.
+//!
+//! The tree is generic over [`HalfPlaneStep`]: any step whose inverse map sends the closed upper
+//! half-plane into itself, is real on the real line outside one interval, and has a forward map on
+//! the real line. The series kept per block is `a₋₁ (z − c) + a₀ + Σ_{m≥1} a_m (z − c)^{−m}`, all
+//! coefficients from the same DFT, so maps that are not normalised at ∞ fit too: a radial step
+//! seen through a fixed Cayley map of the disk onto H (DESIGN §2) is such a map, with a finite
+//! value at ∞ instead of the chordal `z + O(1/z)`. A block whose singular interval is unbounded
+//! (in that frame, an arc through the point sent to ∞) keeps no series and is always descended.
 
 use crate::loewner::ChordalStep;
 use num_complex::Complex64;
+
+/// What the block tree needs from one step of a chain, in a common half-plane frame.
+pub trait HalfPlaneStep: Sync {
+    /// The step's inverse map: closed upper half-plane into itself (boundary to boundary).
+    fn inverse(&self, z: Complex64) -> Complex64;
+    /// The real interval outside which the inverse map is real on the real line (the preimage
+    /// of the step's hull); `(−∞, ∞)` or non-finite ends when there is no such bounded interval.
+    fn preimage_interval(&self) -> (f64, f64);
+    /// The forward map restricted to the real line (monotone boundary correspondence).
+    fn forward_real(&self, x: f64) -> f64;
+}
+
+impl HalfPlaneStep for ChordalStep {
+    fn inverse(&self, z: Complex64) -> Complex64 {
+        ChordalStep::inverse(self, z)
+    }
+    fn preimage_interval(&self) -> (f64, f64) {
+        ChordalStep::preimage_interval(self)
+    }
+    fn forward_real(&self, x: f64) -> f64 {
+        ChordalStep::forward_real(self, x)
+    }
+}
 
 /// Steps in a leaf block (composed directly when a point is near).
 const LEAF: usize = 8;
@@ -50,22 +81,26 @@ struct Node {
     end: usize,
     centre: f64,
     radius: f64,
-    /// Laurent coefficients `a_m`, m = 1..=TERMS, about `centre`.
-    coeffs: [f64; TERMS],
+    /// Coefficients of the series about `centre`, stored relative to the identity:
+    /// `a₋₁ − 1, a₀ − centre, a₁, …, a_TERMS` (so a map close to the identity far away, as a
+    /// chordal block is, loses no precision).
+    coeffs: [f64; TERMS + 2],
+    /// Whether the series may be used (a bounded singular interval).
+    has_series: bool,
     children: Option<(usize, usize)>,
 }
 
 /// A block tree over the steps of a chordal chain (see the module docs).
 #[derive(Debug, Clone)]
-pub struct BlockTree<'a> {
-    steps: &'a [ChordalStep],
+pub struct BlockTree<'a, S: HalfPlaneStep = ChordalStep> {
+    steps: &'a [S],
     nodes: Vec<Node>,
     root: Option<usize>,
 }
 
-impl<'a> BlockTree<'a> {
+impl<'a, S: HalfPlaneStep> BlockTree<'a, S> {
     /// Build the tree over `steps` (in time order).
-    pub fn new(steps: &'a [ChordalStep]) -> Self {
+    pub fn new(steps: &'a [S]) -> Self {
         let mut t = BlockTree {
             steps,
             nodes: Vec::with_capacity(2 * steps.len() / LEAF + 2),
@@ -113,15 +148,20 @@ impl<'a> BlockTree<'a> {
             end,
             centre: 0.5 * (lo + hi),
             radius: 0.5 * (hi - lo),
-            coeffs: [0.0; TERMS],
+            coeffs: [0.0; TERMS + 2],
+            has_series: false,
             children,
         });
-        self.nodes[idx].coeffs = self.sample_coefficients(idx);
+        let bounded = lo.is_finite() && hi.is_finite() && hi > lo;
+        if bounded {
+            self.nodes[idx].coeffs = self.sample_coefficients(idx);
+            self.nodes[idx].has_series = self.nodes[idx].coeffs.iter().all(|a| a.is_finite());
+        }
         idx
     }
 
-    /// Laurent coefficients of node `idx` from samples on a circle of radius 2R (DFT).
-    fn sample_coefficients(&self, idx: usize) -> [f64; TERMS] {
+    /// Series coefficients of node `idx` from samples on a circle of radius 2R (DFT).
+    fn sample_coefficients(&self, idx: usize) -> [f64; TERMS + 2] {
         let n = &self.nodes[idx];
         let r = SAMPLE_RADIUS * n.radius;
         let half = SAMPLES / 2;
@@ -139,18 +179,17 @@ impl<'a> BlockTree<'a> {
         for k in half + 1..SAMPLES {
             f[k] = f[SAMPLES - k].conj();
         }
+        // (a_m − identity's coefficient) r^{−m} = (1/P) Σ_k f_k e^{imθ_k}, m = −1, 0, …, TERMS.
         let tw = twiddles();
-        let mut a = [0.0; TERMS];
-        let mut rm = 1.0;
-        for (m, am) in a.iter_mut().enumerate() {
-            let m1 = m + 1;
-            rm *= r;
+        let mut a = [0.0; TERMS + 2];
+        for (j, am) in a.iter_mut().enumerate() {
+            let m = j as i64 - 1;
             let mut s = 0.0;
             for (k, fk) in f.iter().enumerate() {
-                let e = tw[(m1 * k) % SAMPLES];
+                let e = tw[(m * k as i64).rem_euclid(SAMPLES as i64) as usize];
                 s += fk.re * e.re - fk.im * e.im;
             }
-            *am = (s / SAMPLES as f64) * rm;
+            *am = (s / SAMPLES as f64) * r.powi(m as i32);
         }
         a
     }
@@ -160,13 +199,13 @@ impl<'a> BlockTree<'a> {
     fn apply_node(&self, idx: usize, z: Complex64, use_series: bool) -> Complex64 {
         let n = &self.nodes[idx];
         let w = z - n.centre;
-        if use_series && w.norm() > ACCEPT * n.radius {
+        if use_series && n.has_series && w.norm() > ACCEPT * n.radius {
             let u = w.inv();
             let mut s = 0.0f64 * u;
-            for &am in n.coeffs.iter().rev() {
+            for &am in n.coeffs[2..].iter().rev() {
                 s = (s + am) * u;
             }
-            let out = z + s;
+            let out = z + (w * n.coeffs[0] + n.coeffs[1] + s);
             return Complex64::new(out.re, out.im.max(0.0));
         }
         match n.children {

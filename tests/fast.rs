@@ -75,3 +75,58 @@ fn prefix_maps_at_hard_points() {
         }
     }
 }
+
+/// A step that is not normalised at ∞: a chordal step followed by a real dilation and shift
+/// (`w ↦ λw + μ`), as steps of other chains seen in a half-plane frame are. The block tree must
+/// learn the linear and constant terms of its series and still agree with direct composition.
+struct ScaledStep {
+    inner: sleek::loewner::ChordalStep,
+    lambda: f64,
+    mu: f64,
+}
+
+impl sleek::fast::HalfPlaneStep for ScaledStep {
+    fn inverse(&self, z: C) -> C {
+        self.inner.inverse((z - self.mu) / self.lambda)
+    }
+    fn preimage_interval(&self) -> (f64, f64) {
+        let (a, b) = self.inner.preimage_interval();
+        (self.lambda * a + self.mu, self.lambda * b + self.mu)
+    }
+    fn forward_real(&self, x: f64) -> f64 {
+        self.lambda * self.inner.forward_real(x) + self.mu
+    }
+}
+
+#[test]
+fn block_tree_handles_steps_not_normalised_at_infinity() {
+    let p = BrownianPath::uniform(3.0, 1.0, 2000, 4, 0).unwrap();
+    let ch = ChordalChain::new(p.driving(), StepKind::Tilted);
+    let steps: Vec<ScaledStep> = ch
+        .steps()
+        .iter()
+        .enumerate()
+        .map(|(k, s)| ScaledStep {
+            inner: *s,
+            lambda: 1.0 + 1e-3 * ((k % 7) as f64 - 3.0),
+            mu: 1e-3 * ((k % 5) as f64 - 2.0),
+        })
+        .collect();
+    let tree = BlockTree::new(&steps);
+    use sleek::fast::HalfPlaneStep;
+    for m in [5usize, 64, 999, 2000] {
+        for w in [
+            C::new(0.3, 0.5),
+            C::new(-2.0, 0.01),
+            C::new(5.0, 3.0),
+            C::new(1.0, 0.0),
+        ] {
+            let direct = steps[..m].iter().rev().fold(w, |z, s| s.inverse(z));
+            let fast = tree.apply_prefix(m, w);
+            assert!(
+                (direct - fast).norm() < 1e-11 * (1.0 + direct.norm()),
+                "m={m} w={w}: {direct} vs {fast}"
+            );
+        }
+    }
+}
