@@ -209,15 +209,20 @@ impl<'a, S: HalfPlaneStep> BlockTree<'a, S> {
             return Complex64::new(out.re, out.im.max(0.0));
         }
         match n.children {
-            None => self.steps[n.start..n.end]
-                .iter()
-                .rev()
-                .fold(z, |z, s| s.inverse(z)),
+            None => self.compose(n.start, n.end, z),
             Some((a, c)) => {
                 let z = self.apply_node(c, z, true);
                 self.apply_node(a, z, true)
             }
         }
+    }
+
+    /// The inverse maps of steps `start..end` applied to `z` one by one, the last step first.
+    fn compose(&self, start: usize, end: usize, z: Complex64) -> Complex64 {
+        self.steps[start..end]
+            .iter()
+            .rev()
+            .fold(z, |z, s| s.inverse(z))
     }
 
     /// `F_1 ∘ … ∘ F_m (z)`: the inverse maps of the first `m` steps applied to `z`.
@@ -237,10 +242,7 @@ impl<'a, S: HalfPlaneStep> BlockTree<'a, S> {
             return z;
         }
         match n.children {
-            None => self.steps[n.start..m]
-                .iter()
-                .rev()
-                .fold(z, |z, s| s.inverse(z)),
+            None => self.compose(n.start, m, z),
             Some((a, c)) => {
                 let z = self.prefix(c, m, z);
                 self.prefix(a, m, z)
