@@ -19,12 +19,13 @@
 //! of the curve.
 //!
 //! The tree is generic over [`HalfPlaneStep`]: any step whose inverse map sends the closed upper
-//! half-plane into itself, is real on the real line outside one interval, and has a forward map on
-//! the real line. The series kept per block is `a₋₁ (z − c) + a₀ + Σ_{m≥1} a_m (z − c)^{−m}`, all
-//! coefficients from the same DFT, so maps that are not normalised at ∞ fit too: a radial step
-//! seen through a fixed Cayley map of the disk onto H (DESIGN §2) is such a map, with a finite
-//! value at ∞ instead of the chordal `z + O(1/z)`. A block whose singular interval is unbounded
-//! (in that frame, an arc through the point sent to ∞) keeps no series and is always descended.
+//! half-plane into itself and is real on the real line outside one bounded interval (and
+//! analytic elsewhere, ∞ included), with a forward map on the real line. The series kept per
+//! block is `a₋₁ (z − c) + a₀ + Σ_{m≥1} a_m (z − c)^{−m}`, all coefficients from the same DFT,
+//! so maps not normalised at ∞ fit too. Radial steps in one fixed Cayley frame of the disk do
+//! *not* qualify as they are: the image of the boundary point sent to ∞ is a pole on the real
+//! line outside the slit's interval (found by a test, kept out); they need per-block frames.
+//! A block whose singular interval is not bounded keeps no series and is always descended.
 
 use crate::loewner::ChordalStep;
 use num_complex::Complex64;

@@ -42,6 +42,7 @@ pub mod io;
 pub mod laws;
 pub mod loewner;
 pub mod plot;
+pub mod radial;
 pub mod report;
 pub mod rng;
 pub mod sle;

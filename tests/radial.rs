@@ -1,0 +1,94 @@
+//! Radial Loewner steps in the unit disk (DESIGN §2, §5): the Cayley-form step against
+//! integration of the radial Loewner ODE, its normalisation, slit and Koebe identity, and the
+//! conformal-radius rate (the squared Poisson kernel).
+
+mod common;
+
+use common::dopri;
+use num_complex::Complex64 as C;
+use sleek::radial::{RadialChain, RadialStep};
+
+fn radial_ode(z: C, xi: f64, dt: f64) -> C {
+    let e = C::from_polar(1.0, xi);
+    dopri(|_, g| g * (e + g) / (e - g), 0.0, dt, z, 1e-14)
+}
+
+/// The explicit step equals the flow of the radial Loewner equation with constant driving
+/// (common practice: the equation of DESIGN §2, integrated by DOPRI5), to 1e-12.
+#[test]
+fn step_matches_the_radial_ode() {
+    for (xi, dt) in [(0.0, 0.1), (1.3, 0.02), (-2.5, 0.5), (3.0, 1e-4)] {
+        let s = RadialStep::new(xi, dt);
+        for z in [
+            C::new(0.3, 0.2),
+            C::new(-0.7, 0.1),
+            C::new(0.0, -0.9),
+            C::new(0.05, 0.0),
+        ] {
+            let ode = radial_ode(z, xi, dt);
+            assert!(
+                (s.forward(z) - ode).norm() < 1e-12,
+                "ξ={xi} Δt={dt} z={z}: {} vs {ode}",
+                s.forward(z)
+            );
+            assert!((s.inverse(s.forward(z)) - z).norm() < 1e-12);
+        }
+    }
+}
+
+/// g(0) = 0, g'(0) = e^{Δt}; the slit is [x, 1]e^{iξ} with x = (1−a)/(1+a), a = √(1 − e^{−Δt});
+/// and the Koebe identity k(e^{−iξ} g(z)) = e^{Δt} k(e^{−iξ} z), k(z) = z/(1+z)² (DESIGN §5).
+#[test]
+fn normalisation_slit_and_koebe_identity() {
+    let k = |z: C| z / ((1.0 + z) * (1.0 + z));
+    for (xi, dt) in [(0.4f64, 0.3f64), (-1.0, 2.0), (2.9, 1e-3)] {
+        let s = RadialStep::new(xi, dt);
+        let (g0, d0) = s.forward_with_derivative(C::new(0.0, 0.0));
+        assert!(g0.norm() < 1e-15);
+        assert!((d0 - C::new(dt.exp(), 0.0)).norm() < 1e-12 * dt.exp());
+        let a = (1.0 - (-dt).exp()).sqrt();
+        let tip = s.inverse(C::from_polar(1.0, xi));
+        assert!(
+            (tip - C::from_polar((1.0 - a) / (1.0 + a), xi)).norm() < 1e-12,
+            "{tip}"
+        );
+        assert!((s.tip() - tip).norm() < 1e-12);
+        let rot = C::from_polar(1.0, -xi);
+        for z in [C::new(0.2, -0.5), C::new(-0.6, 0.3)] {
+            let lhs = k(rot * s.forward(z));
+            let rhs = k(rot * z) * dt.exp();
+            assert!(
+                (lhs - rhs).norm() < 1e-12 * (1.0 + rhs.norm()),
+                "{lhs} vs {rhs}"
+            );
+        }
+    }
+}
+
+/// d/dt [−log CR(D_t, z)] = P² with P = (1 − |w|²)/|e^{iξ} − w|², w = g_t(z) (DESIGN §2):
+/// one small step changes −log CR by P²Δt up to O(Δt²).
+#[test]
+fn conformal_radius_rate_is_the_squared_poisson_kernel() {
+    let mut chain = RadialChain::new();
+    chain.push(RadialStep::new(0.7, 0.4));
+    chain.push(RadialStep::new(-1.9, 0.3));
+    for z in [C::new(0.1, 0.2), C::new(-0.5, -0.4), C::new(0.6, 0.0)] {
+        let before = -chain.log_conformal_radius(z);
+        let (w, _) = chain.forward_with_log_derivative(z);
+        let xi = 2.2;
+        let dt = 1e-6;
+        let mut next = chain.clone();
+        next.push(RadialStep::new(xi, dt));
+        let after = -next.log_conformal_radius(z);
+        let e = C::from_polar(1.0, xi);
+        let p = (1.0 - w.norm_sqr()) / (e - w).norm_sqr();
+        let rate = (after - before) / dt;
+        assert!(
+            (rate - p * p).abs() < 1e-4 * p * p,
+            "z={z}: rate {rate} vs P² {}",
+            p * p
+        );
+    }
+    // At the target itself, −log CR(D_t, 0) is the radial time.
+    assert!((-chain.log_conformal_radius(C::new(0.0, 0.0)) - chain.time()).abs() < 1e-12);
+}
