@@ -39,15 +39,6 @@ pub fn dopri(f: impl Fn(f64, C) -> C, x0: f64, x1: f64, y0: C, tol: f64) -> C {
         ],
     ];
     const CS: [f64; 7] = [0.0, 0.2, 0.3, 0.8, 8.0 / 9.0, 1.0, 1.0];
-    const B5: [f64; 7] = [
-        35.0 / 384.0,
-        0.0,
-        500.0 / 1113.0,
-        125.0 / 192.0,
-        -2187.0 / 6784.0,
-        11.0 / 84.0,
-        0.0,
-    ];
     const B4: [f64; 7] = [
         5179.0 / 57600.0,
         0.0,
@@ -77,10 +68,12 @@ pub fn dopri(f: impl Fn(f64, C) -> C, x0: f64, x1: f64, y0: C, tol: f64) -> C {
             }
             k[s] = f(x + CS[s] * h, yi);
         }
+        // The 5th-order weights are the last stage's row of A (first same as last).
         let mut y5 = y;
         let mut y4 = y;
         for s in 0..7 {
-            y5 += k[s] * (B5[s] * h);
+            let b5 = if s < 6 { A[5][s] } else { 0.0 };
+            y5 += k[s] * (b5 * h);
             y4 += k[s] * (B4[s] * h);
         }
         let err = (y5 - y4).norm() / (tol * (1.0 + y.norm()));
