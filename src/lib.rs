@@ -34,6 +34,8 @@
 
 pub mod audit;
 pub mod bench;
+pub mod bessel;
+pub mod cle;
 pub mod domain;
 pub mod driving;
 pub mod error;
