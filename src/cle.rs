@@ -1,1 +1,839 @@
-//! CLE_κ in the unit disk by radial exploration (DESIGN §6).
+//! CLE_κ in the unit disk by radial exploration, 8/3 < κ < 8 (DESIGN §6).
+//!
+//! Conventions. The disk is D, its conformal radius seen from z is `CR(D, z) = 1 − |z|²`, and the
+//! radial Loewner equation of §2 of DESIGN is used in every *frame* (a uniformising map of the
+//! remaining domain onto D, normalised at the point that currently drives the exploration).
+//! In a frame the force point sits at angle 0 (the boundary point `1`) and the tip at angle θ.
+//!
+//! The exploration is Sheffield's radial SLE_κ(κ − 6) (Duke Math. J. 2009), simulated through
+//! its angle process θ = ξ − η, `dθ = √κ dB + ((κ−4)/2) cot(θ/2) dt` on (0, 2π) — reflected at 0
+//! for 4 < κ < 8, and for κ ≤ 4 the symmetric (principal-value) version on (−2π, 2π) in which
+//! each excursion away from 0 picks its side by a fair coin. An excursion that reaches ±2π closes
+//! a loop around the frame's point; its interior is a fresh CLE_κ, so θ restarts at 0 there.
+//!
+//! # The θ scheme (DESIGN §6.1)
+//! With d the distance of θ to its nearer end, d/√κ is a Bessel process of dimension
+//! δ = 3 − 8/κ plus a bounded drift. One step of length h: (1) exact squared-Bessel transition
+//! `X'² = h·χ'²(δ, d²/(κh))` (Poisson mixture of central χ², exact for every δ > 0, reflection
+//! included); (2) the bounded remainder `r(d) = ((κ−4)/2)(cot(d/2) − 2/d)` added by an Euler
+//! step; (3) whether the step visited the end is sampled with the Bessel-bridge probability
+//! `1 − I_ν(z)/I_{−ν}(z)`, ν = 4/κ − 1/2, z = X X'/h. A visit of the far end (2π) closes a loop.
+//!
+//! # Marked points and target invariance (DESIGN §6.2)
+//! All marked points of a sample live in one configuration. Explorations towards different
+//! targets agree until the targets are disconnected, so the exploration may at any stopping time
+//! continue towards any point of the current component. This module uses that freedom: the
+//! *driver* of a branch is the point whose own radial clock runs fastest (largest Poisson kernel
+//! at the tip), and its θ is simulated by the exact scheme above, in its own time. The other
+//! points are carried by the slit maps (`w ← G(w)`, `log|g'| += log|G'(w)|`); the step is cut so
+//! that every non-driving point stays at least `separation·√(κh)` away from the tip in the
+//! driver's frame, where the slit maps are smooth.
+//!
+//! Two events change the set of points a branch carries:
+//! * **The driver's loop closes** (its θ visits 2π): every point that sees the closed arc as
+//!   more than half of the boundary (harmonic measure > 1/2; for points far from the tip it is
+//!   ≈ 1) is inside the same loop, gets the same loop identifier, and continues with the
+//!   driver in the loop's interior, where θ restarts at 0. The other points leave.
+//! * **A point is pinched off**: `1 − |w|` in the driver's frame is the pseudo-hyperbolic
+//!   closeness of the two points — symmetric in them — and it tends to 0 exactly when the trace
+//!   disconnects them. A point with `1 − |w| < pinch` leaves on its own branch with the state
+//!   it has, *without* a loop being recorded: a disconnection is a loop closure for the point
+//!   only if its own θ is at 2π, and then the exact scheme closes that loop on the branch's
+//!   first step (bridge probability ≈ 1); otherwise the point simply continues (for
+//!   4 < κ < 8 most disconnections are swallowings, which are not loops).
+//!
+//! Points that leave together stay together when they are still connected to each other.
+//! Each branch draws from its own random stream, numbered in the deterministic order in which
+//! branches are created.
+
+use crate::bessel::bridge_hit_probability;
+use crate::error::{Error, Result};
+use crate::radial::RadialStep;
+use crate::rng::{self, Tag};
+use num_complex::Complex64;
+use rand::Rng;
+use rand_chacha::ChaCha8Rng;
+use rand_distr::{Distribution, Gamma, Poisson, StandardNormal};
+use serde::Serialize;
+use std::f64::consts::PI;
+
+const TWO_PI: f64 = 2.0 * PI;
+
+/// Which end of its range the angle process visited during a step.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+pub enum EndVisit {
+    /// No end was visited.
+    None,
+    /// θ visited 0: the tip touched the force point from the force point's own side.
+    Zero,
+    /// θ visited ±2π: a loop closed around the frame's point.
+    Full,
+}
+
+/// One step of the angle process: the new value and the end it visited.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct AngleStep {
+    /// θ after the step (signed for κ ≤ 4; in [0, 2π] for κ > 4).
+    pub theta: f64,
+    /// Which end the step visited (sampled from the Bessel-bridge probability).
+    pub visit: EndVisit,
+}
+
+/// The angle process θ of radial SLE_κ(κ − 6) and its exact-transition scheme (module docs).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct AngleProcess {
+    kappa: f64,
+    sqrt_kappa: f64,
+    delta: f64,
+    nu: f64,
+    drift: f64,
+    symmetric: bool,
+}
+
+impl AngleProcess {
+    /// The process for CLE_κ.
+    ///
+    /// Errors: [`Error::InvalidParameter`] unless 8/3 < κ < 8 (CLE_κ exists for 8/3 < κ ≤ 8;
+    /// at κ = 8 the loops fill space and θ never reaches 2π; at κ ≤ 8/3 the Bessel dimension
+    /// 3 − 8/κ is ≤ 0 and there is no loop ensemble).
+    pub fn new(kappa: f64) -> Result<Self> {
+        if !(kappa.is_finite() && kappa > 8.0 / 3.0 && kappa < 8.0) {
+            return Err(Error::param(
+                "kappa",
+                kappa,
+                "8/3 < kappa < 8 (CLE_kappa needs kappa > 8/3; at kappa >= 8 the exploration \
+                 is space-filling and never closes a loop around its target)",
+            ));
+        }
+        Ok(AngleProcess {
+            kappa,
+            sqrt_kappa: kappa.sqrt(),
+            delta: 3.0 - 8.0 / kappa,
+            nu: 4.0 / kappa - 0.5,
+            drift: 0.5 * (kappa - 4.0),
+            symmetric: kappa <= 4.0,
+        })
+    }
+
+    /// κ.
+    pub fn kappa(&self) -> f64 {
+        self.kappa
+    }
+
+    /// Dimension δ = 3 − 8/κ of the Bessel process that θ/√κ follows near its ends.
+    pub fn bessel_dimension(&self) -> f64 {
+        self.delta
+    }
+
+    /// Whether the symmetric (principal-value, κ ≤ 4) version is used.
+    pub fn is_symmetric(&self) -> bool {
+        self.symmetric
+    }
+
+    /// The bounded part of the drift, `r(d) = ((κ−4)/2)(cot(d/2) − 2/d)` for d ∈ [0, π].
+    fn remainder(&self, d: f64) -> f64 {
+        let c = if d < 1e-3 {
+            // cot(x/2) − 2/x = −x/6 − x³/360 − …
+            -d / 6.0 - d * d * d / 360.0
+        } else {
+            1.0 / (0.5 * d).tan() - 2.0 / d
+        };
+        self.drift * c
+    }
+
+    /// A non-central χ² variate with δ degrees of freedom and non-centrality `lam`.
+    fn noncentral_chi2<R: Rng + ?Sized>(&self, lam: f64, rng: &mut R) -> f64 {
+        let n = if lam <= 0.0 {
+            0.0
+        } else if lam < 1e12 {
+            match Poisson::new(0.5 * lam) {
+                Ok(p) => p.sample(rng),
+                Err(_) => 0.5 * lam,
+            }
+        } else {
+            // Far from the end (d²/(κh) > 1e12) the Poisson count is normal to 1e-6 relative.
+            let z: f64 = StandardNormal.sample(rng);
+            (0.5 * lam + (0.5 * lam).sqrt() * z).max(0.0).round()
+        };
+        let shape = 0.5 * self.delta + n;
+        match Gamma::new(shape, 2.0) {
+            Ok(g) => g.sample(rng),
+            Err(_) => 2.0 * shape,
+        }
+    }
+
+    /// One step of length `h` from `theta` (module docs: exact squared-Bessel step towards the
+    /// nearer end, bounded drift remainder, Bessel-bridge visit of the end).
+    pub fn step<R: Rng + ?Sized>(&self, theta: f64, h: f64, rng: &mut R) -> AngleStep {
+        let sign = if theta < 0.0 { -1.0 } else { 1.0 };
+        let a = theta.abs().min(TWO_PI);
+        let near_full = a > PI;
+        let d = if near_full { TWO_PI - a } else { a };
+        let lam = d * d / (self.kappa * h);
+        let y = self.noncentral_chi2(lam, rng);
+        let x_new = (h * y).sqrt();
+        let mut d_new = self.sqrt_kappa * x_new + self.remainder(d) * h;
+        if d_new < 0.0 {
+            d_new = -d_new;
+        }
+        let z = d * x_new / (self.sqrt_kappa * h);
+        let p = bridge_hit_probability(self.nu, z);
+        let u: f64 = rng.random();
+        let visited = u < p;
+        if near_full {
+            let a_new = (TWO_PI - d_new).clamp(0.0, TWO_PI);
+            AngleStep {
+                theta: sign * a_new,
+                visit: if visited {
+                    EndVisit::Full
+                } else {
+                    EndVisit::None
+                },
+            }
+        } else {
+            let a_new = d_new.min(TWO_PI);
+            if visited {
+                let s = if self.symmetric {
+                    if rng.random::<bool>() {
+                        1.0
+                    } else {
+                        -1.0
+                    }
+                } else {
+                    1.0
+                };
+                AngleStep {
+                    theta: s * a_new,
+                    visit: EndVisit::Zero,
+                }
+            } else {
+                AngleStep {
+                    theta: sign * a_new,
+                    visit: EndVisit::None,
+                }
+            }
+        }
+    }
+
+    /// The first time θ, started at 0, visits ±2π — T = −log CR of the outermost loop around
+    /// the target, whose law is that of Schramm, Sheffield & Wilson (Commun. Math. Phys. 2009) —
+    /// with steps of length `h`; `None` if it exceeds `max_time`. The hitting time is the end of
+    /// the step in which the visit was sampled (an O(h) bias per level).
+    pub fn hitting_time<R: Rng + ?Sized>(&self, h: f64, max_time: f64, rng: &mut R) -> Option<f64> {
+        let mut theta = 0.0;
+        let mut t = 0.0;
+        while t < max_time {
+            let s = self.step(theta, h, rng);
+            t += h;
+            if s.visit == EndVisit::Full {
+                return Some(t);
+            }
+            theta = s.theta;
+        }
+        None
+    }
+}
+
+/// Numerical settings of the exploration.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct ExploreSettings {
+    /// Largest step, in the driving point's radial time (default 0.01; DESIGN §6.1 measured
+    /// ≈ 0.5% error in E[T] at this step).
+    pub h_max: f64,
+    /// Smallest step; below it the geometry near the tip is unresolved (default 1e-10).
+    pub h_min: f64,
+    /// Non-driving points are kept at least `separation·√(κh)` from the tip (default 8).
+    pub separation: f64,
+    /// A non-driving point with `1 − |w| < pinch` in the driver's frame (pseudo-hyperbolic
+    /// closeness to the driver) counts as disconnected from it and leaves on its own branch
+    /// (default 1e-6).
+    pub pinch: f64,
+    /// Nested loops to find around each point (default 1).
+    pub levels: usize,
+    /// A point whose normalised radial time exceeds this without finding all its loops is
+    /// reported as censored (default: levels·30/λ*, a tail probability of about e^{−30} per
+    /// level).
+    pub max_time: f64,
+    /// Step budget for one sample (all branches); exceeding it censors the remaining points.
+    pub max_steps: u64,
+}
+
+impl ExploreSettings {
+    /// Defaults for κ and `levels` (see the field docs).
+    pub fn defaults(kappa: f64, levels: usize) -> Self {
+        let lambda_star = 1.0 - 2.0 / kappa - 3.0 * kappa / 32.0;
+        let levels = levels.max(1);
+        ExploreSettings {
+            h_max: 0.01,
+            h_min: 1e-10,
+            separation: 8.0,
+            pinch: 1e-6,
+            levels,
+            max_time: levels as f64 * 30.0 / lambda_star.max(1e-3),
+            max_steps: 200_000_000,
+        }
+    }
+}
+
+/// A loop of the configuration surrounding a marked point.
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct LoopAround {
+    /// Nesting level (1 = outermost loop around the point).
+    pub level: usize,
+    /// Identifier of the loop within its sample: points that share a loop share its id.
+    pub loop_id: u64,
+    /// Natural log of the conformal radius of the loop's interior seen from the point, in the
+    /// disk's own coordinates (so `log(1 − |z|²) − log_cr` is the law of §7.1 at level 1).
+    pub log_cr: f64,
+}
+
+/// What one sample found around one marked point.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PointRecord {
+    /// The marked point.
+    pub z: [f64; 2],
+    /// `log CR(D, z) = log(1 − |z|²)`.
+    pub log_cr_disk: f64,
+    /// The loops around the point, outermost first.
+    pub loops: Vec<LoopAround>,
+    /// True if the exploration stopped (time or step budget) before all levels were found.
+    pub censored: bool,
+}
+
+impl PointRecord {
+    /// Normalised times `T_k = log CR(D, z) − log CR(loop_k)`, k = 1, 2, …
+    pub fn times(&self) -> Vec<f64> {
+        self.loops
+            .iter()
+            .map(|l| self.log_cr_disk - l.log_cr)
+            .collect()
+    }
+}
+
+/// Counters that say how well a sample was resolved.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Serialize)]
+pub struct SampleDiagnostics {
+    /// Steps taken (all branches).
+    pub steps: u64,
+    /// Steps that wanted to be shorter than `h_min` and were taken at `h_min`.
+    pub floor_steps: u64,
+    /// Changes of driving point.
+    pub switches: u64,
+    /// Branches of the exploration tree (1 + number of separations).
+    pub branches: u64,
+    /// Points that left a branch because they were pinched off from its driver.
+    pub pinched: u64,
+}
+
+/// One CLE_κ configuration seen from the marked points.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct CleSample {
+    /// Sample index (with the seed, it determines the sample).
+    pub index: u64,
+    /// One record per marked point, in the order given.
+    pub points: Vec<PointRecord>,
+    /// Resolution counters.
+    pub diagnostics: SampleDiagnostics,
+}
+
+/// A marked point carried by a branch: its image `w` in the branch frame and `log|g'(z)|`.
+#[derive(Debug, Clone, Copy)]
+struct Tracked {
+    id: usize,
+    w: Complex64,
+    ell: f64,
+}
+
+impl Tracked {
+    fn log_cr(&self) -> f64 {
+        let r = self.w.norm();
+        ((1.0 - r) * (1.0 + r)).ln() - self.ell
+    }
+}
+
+/// One branch of the exploration tree: force point at 1, tip at `e^{iθ}`, driver at 0.
+struct Branch {
+    theta: f64,
+    pts: Vec<Tracked>,
+    driver: usize,
+    rng: ChaCha8Rng,
+}
+
+/// Harmonic measure, seen from `w`, of the boundary arc from the force point (angle 0) to the
+/// tip (angle θ), on the side given by the sign of θ.
+fn arc_measure(w: Complex64, theta: f64) -> f64 {
+    let m = |u: Complex64| (u - w) / (Complex64::new(1.0, 0.0) - w.conj() * u);
+    let a = m(Complex64::new(1.0, 0.0)).arg();
+    let b = m(Complex64::from_polar(1.0, theta)).arg();
+    if theta >= 0.0 {
+        (b - a).rem_euclid(TWO_PI) / TWO_PI
+    } else {
+        (a - b).rem_euclid(TWO_PI) / TWO_PI
+    }
+}
+
+impl Branch {
+    /// Move to the frame of point `k` (Möbius map sending `w_k` to 0, rotated so that the force
+    /// point is at 1) and make it the driver; θ becomes the point's own angle.
+    fn renormalise(&mut self, k: usize) {
+        let c = self.pts[k].w;
+        let one = Complex64::new(1.0, 0.0);
+        let tip = Complex64::from_polar(1.0, self.theta);
+        let (force, tip) = if c == Complex64::new(0.0, 0.0) {
+            (one, tip)
+        } else {
+            let rc = c.norm();
+            let num = ((1.0 - rc) * (1.0 + rc)).ln();
+            for p in self.pts.iter_mut() {
+                let den = one - c.conj() * p.w;
+                p.ell += num - 2.0 * den.norm().ln();
+                p.w = (p.w - c) / den;
+            }
+            let m = |u: Complex64| (u - c) / (one - c.conj() * u);
+            (m(one), m(tip))
+        };
+        let rot = force.conj() / force.norm();
+        for p in self.pts.iter_mut() {
+            p.w *= rot;
+        }
+        self.pts[k].w = Complex64::new(0.0, 0.0);
+        let b = (tip * rot).arg();
+        self.theta = if self.theta >= 0.0 {
+            b.rem_euclid(TWO_PI)
+        } else {
+            -(-b).rem_euclid(TWO_PI)
+        };
+        self.driver = k;
+    }
+
+    /// The point with the fastest clock (largest Poisson kernel at the tip).
+    fn fastest(&self) -> (usize, f64) {
+        let tip = Complex64::from_polar(1.0, self.theta);
+        let mut best = (self.driver, 1.0);
+        for (j, p) in self.pts.iter().enumerate() {
+            if j == self.driver {
+                continue;
+            }
+            let r = p.w.norm();
+            let pk = (1.0 - r) * (1.0 + r) / (tip - p.w).norm_sqr();
+            if pk > best.1 {
+                best = (j, pk);
+            }
+        }
+        best
+    }
+
+    /// Relabel the force point at the tip and restart θ at 0 (a loop has just closed around
+    /// the branch's points: its interior is explored afresh from the closing point).
+    fn restart_inside(&mut self) {
+        let rot = Complex64::from_polar(1.0, -self.theta);
+        for p in self.pts.iter_mut() {
+            p.w *= rot;
+        }
+        self.theta = 0.0;
+    }
+}
+
+/// Sampler of CLE_κ configurations seen from a set of marked points of the unit disk.
+#[derive(Debug, Clone)]
+pub struct CleExplorer {
+    process: AngleProcess,
+    settings: ExploreSettings,
+    points: Vec<Complex64>,
+}
+
+/// Hysteresis for changing the driver: switch when another clock is this much faster.
+const SWITCH_RATIO: f64 = 1.5;
+
+impl CleExplorer {
+    /// An explorer of CLE_κ with the given marked points (at least one, all in the open disk).
+    ///
+    /// Errors: [`Error::InvalidParameter`] for κ outside (8/3, 8), no point, a point with
+    /// |z| ≥ 1 or non-finite coordinates, or unusable settings.
+    pub fn new(kappa: f64, points: &[Complex64], settings: ExploreSettings) -> Result<Self> {
+        let process = AngleProcess::new(kappa)?;
+        if points.is_empty() {
+            return Err(Error::param(
+                "points",
+                0.0,
+                "at least one marked point in the open unit disk",
+            ));
+        }
+        for z in points {
+            if !(z.re.is_finite() && z.im.is_finite() && z.norm() < 1.0) {
+                return Err(Error::param(
+                    "point",
+                    z.norm(),
+                    format!(
+                        "|z| < 1 (the point ({}, {}) is not inside the open unit disk)",
+                        z.re, z.im
+                    ),
+                ));
+            }
+        }
+        let s = settings;
+        if !(s.h_max.is_finite() && s.h_max > 0.0 && s.h_max <= 0.5) {
+            return Err(Error::param("h_max", s.h_max, "0 < h_max <= 0.5"));
+        }
+        if !(s.h_min.is_finite() && s.h_min > 0.0 && s.h_min <= s.h_max) {
+            return Err(Error::param("h_min", s.h_min, "0 < h_min <= h_max"));
+        }
+        if !(s.separation.is_finite() && s.separation >= 1.0) {
+            return Err(Error::param("separation", s.separation, "separation >= 1"));
+        }
+        if s.levels == 0 || s.levels > 10_000 {
+            return Err(Error::param(
+                "levels",
+                s.levels as f64,
+                "1 <= levels <= 10000",
+            ));
+        }
+        if !(s.max_time.is_finite() && s.max_time > 0.0) {
+            return Err(Error::param(
+                "max_time",
+                s.max_time,
+                "a positive radial time",
+            ));
+        }
+        Ok(CleExplorer {
+            process,
+            settings,
+            points: points.to_vec(),
+        })
+    }
+
+    /// The angle process.
+    pub fn process(&self) -> &AngleProcess {
+        &self.process
+    }
+
+    /// The settings.
+    pub fn settings(&self) -> &ExploreSettings {
+        &self.settings
+    }
+
+    /// The marked points.
+    pub fn points(&self) -> &[Complex64] {
+        &self.points
+    }
+
+    /// Sample `index` of a run with `seed` (a pure function of both).
+    pub fn sample(&self, seed: u64, index: u64) -> CleSample {
+        self.sample_part(seed, index, 0)
+    }
+
+    /// Sample `index` of part `part` of a run with `seed`: parts are independent streams of the
+    /// same run (used to explore several points in independent configurations). Part 0 is
+    /// [`CleExplorer::sample`].
+    pub fn sample_part(&self, seed: u64, index: u64, part: u32) -> CleSample {
+        let base = (part as u64) << 40;
+        let mut records: Vec<PointRecord> = self
+            .points
+            .iter()
+            .map(|z| {
+                let r = z.norm();
+                PointRecord {
+                    z: [z.re, z.im],
+                    log_cr_disk: ((1.0 - r) * (1.0 + r)).ln(),
+                    loops: Vec::new(),
+                    censored: false,
+                }
+            })
+            .collect();
+        let mut diag = SampleDiagnostics::default();
+        let mut next_loop: u64 = 0;
+        let mut next_branch: u64 = base + 1;
+        let mut root = Branch {
+            theta: 0.0,
+            pts: self
+                .points
+                .iter()
+                .enumerate()
+                .map(|(id, &w)| Tracked { id, w, ell: 0.0 })
+                .collect(),
+            driver: 0,
+            rng: rng::substream(seed, Tag::Cle, index, base),
+        };
+        let k = root.fastest_from_boundary();
+        root.renormalise(k);
+        let mut stack = vec![root];
+        while let Some(mut br) = stack.pop() {
+            let spawned = self.run_branch(
+                &mut br,
+                &mut records,
+                &mut diag,
+                &mut next_loop,
+                &mut next_branch,
+                seed,
+                index,
+            );
+            // Push in reverse so branches run in creation order (deterministic either way).
+            for b in spawned.into_iter().rev() {
+                stack.push(b);
+            }
+        }
+        diag.branches = next_branch - base;
+        CleSample {
+            index,
+            points: records,
+            diagnostics: diag,
+        }
+    }
+
+    /// Run a branch until its points are done or it splits; returns the branches split off.
+    #[allow(clippy::too_many_arguments)]
+    fn run_branch(
+        &self,
+        br: &mut Branch,
+        records: &mut [PointRecord],
+        diag: &mut SampleDiagnostics,
+        next_loop: &mut u64,
+        next_branch: &mut u64,
+        seed: u64,
+        index: u64,
+    ) -> Vec<Branch> {
+        let s = &self.settings;
+        let kappa = self.process.kappa;
+        let mut spawned = Vec::new();
+        let mut since_check = 0u32;
+        loop {
+            if br.pts.is_empty() {
+                return spawned;
+            }
+            if diag.steps >= s.max_steps {
+                for p in &br.pts {
+                    records[p.id].censored = true;
+                }
+                br.pts.clear();
+                return spawned;
+            }
+            // Time budget, checked every 64 steps.
+            since_check += 1;
+            if since_check >= 64 {
+                since_check = 0;
+                let before = br.pts.len();
+                br.pts.retain(|p| {
+                    let t = records[p.id].log_cr_disk - p.log_cr();
+                    if t > s.max_time {
+                        records[p.id].censored = true;
+                        false
+                    } else {
+                        true
+                    }
+                });
+                if br.pts.is_empty() {
+                    return spawned;
+                }
+                if br.pts.len() != before {
+                    let k = br.fastest_any();
+                    br.renormalise(k);
+                }
+            }
+            let (k, pk) = br.fastest();
+            if k != br.driver && pk > SWITCH_RATIO {
+                br.renormalise(k);
+                diag.switches += 1;
+            }
+            // Step length: every non-driving point at least separation·√(κh) from the tip.
+            let tip = Complex64::from_polar(1.0, br.theta);
+            let mut h = s.h_max;
+            for (j, p) in br.pts.iter().enumerate() {
+                if j != br.driver {
+                    let dist = (tip - p.w).norm() / s.separation;
+                    h = h.min(dist * dist / kappa);
+                }
+            }
+            let floored = h < s.h_min;
+            if floored {
+                h = s.h_min;
+                diag.floor_steps += 1;
+            }
+            let before = br.pts.clone();
+            let theta_before = br.theta;
+            let st = self.process.step(br.theta, h, &mut br.rng);
+            let step = RadialStep::new(st.theta, h);
+            let driver = br.driver;
+            for (j, p) in br.pts.iter_mut().enumerate() {
+                if j == driver {
+                    p.ell += h;
+                } else {
+                    let (w, d) = step.forward_with_derivative(p.w);
+                    p.w = w;
+                    p.ell += d.norm().ln();
+                }
+            }
+            let side = if st.theta >= 0.0 { -1.0 } else { 1.0 };
+            let eta = step.forward_boundary_angle(0.0, side);
+            let rot = Complex64::from_polar(1.0, -eta);
+            for p in br.pts.iter_mut() {
+                p.w *= rot;
+            }
+            br.pts[driver].w = Complex64::new(0.0, 0.0);
+            br.theta = st.theta;
+            diag.steps += 1;
+
+            // Pinched points: 1 − |w| is the pseudo-hyperbolic closeness of a point to the
+            // driver (symmetric in the two), which tends to 0 exactly when the trace
+            // disconnects them. Such points leave on their own branch with the state they have;
+            // their own angle then decides, through the exact scheme, whether the region they
+            // are in is a loop interior (θ ≈ 2π: the next step closes it) or not.
+            let mut pinched = Vec::new();
+            let mut broken = Vec::new();
+            for (j, p) in br.pts.iter().enumerate() {
+                if j == driver {
+                    continue;
+                }
+                let r = p.w.norm();
+                if !(r < 1.0 && p.ell.is_finite()) {
+                    // The step pushed the point onto the circle: keep its last valid state.
+                    broken.push(j);
+                } else if 1.0 - r < s.pinch {
+                    pinched.push(j);
+                }
+            }
+            let mut leaving: Vec<usize> = pinched.clone();
+            leaving.extend(&broken);
+            let mut inside = Vec::new();
+            if st.visit == EndVisit::Full {
+                // A loop closes around the driver and around every other point that sees the
+                // closed arc as most of the boundary; the others are outside and leave.
+                for (j, p) in br.pts.iter().enumerate() {
+                    if j == driver || (!leaving.contains(&j) && arc_measure(p.w, br.theta) > 0.5) {
+                        inside.push(j);
+                    } else if !leaving.contains(&j) {
+                        pinched.push(j);
+                        leaving.push(j);
+                    }
+                }
+            }
+            if !broken.is_empty() {
+                diag.pinched += broken.len() as u64;
+                let pts: Vec<Tracked> = broken.iter().map(|&j| before[j]).collect();
+                for g in group_connected(pts, s.pinch) {
+                    spawned.push(self.split(theta_before, g, seed, index, next_branch));
+                }
+            }
+            if !pinched.is_empty() {
+                diag.pinched += pinched.len() as u64;
+                let pts: Vec<Tracked> = pinched.iter().map(|&j| br.pts[j]).collect();
+                for g in group_connected(pts, s.pinch) {
+                    spawned.push(self.split(br.theta, g, seed, index, next_branch));
+                }
+            }
+            if st.visit == EndVisit::Full {
+                let id = *next_loop;
+                *next_loop += 1;
+                let was_driver = br.pts[driver].id;
+                let mut remaining = Vec::new();
+                for &j in &inside {
+                    let p = br.pts[j];
+                    let rec = &mut records[p.id];
+                    rec.loops.push(LoopAround {
+                        level: rec.loops.len() + 1,
+                        loop_id: id,
+                        log_cr: p.log_cr(),
+                    });
+                    if rec.loops.len() < s.levels {
+                        remaining.push(p);
+                    }
+                }
+                br.pts = remaining;
+                if br.pts.is_empty() {
+                    return spawned;
+                }
+                let k = br
+                    .pts
+                    .iter()
+                    .position(|p| p.id == was_driver)
+                    .unwrap_or_else(|| br.fastest_any());
+                br.restart_inside();
+                br.renormalise(k);
+                br.theta = 0.0;
+            } else if !leaving.is_empty() {
+                let was_driver = br.pts[driver].id;
+                let mut keep = Vec::new();
+                for (j, p) in br.pts.iter().enumerate() {
+                    if !leaving.contains(&j) {
+                        keep.push(*p);
+                    }
+                }
+                br.pts = keep;
+                br.driver = br.pts.iter().position(|p| p.id == was_driver).unwrap_or(0);
+            }
+        }
+    }
+
+    /// A new branch for points that left a branch, in the inherited frame (tip at angle
+    /// `theta`); the fastest of them drives it.
+    fn split(
+        &self,
+        theta: f64,
+        pts: Vec<Tracked>,
+        seed: u64,
+        index: u64,
+        next_branch: &mut u64,
+    ) -> Branch {
+        let id = *next_branch;
+        *next_branch += 1;
+        let mut b = Branch {
+            theta,
+            pts,
+            driver: 0,
+            rng: rng::substream(seed, Tag::Cle, index, id),
+        };
+        let k = b.fastest_any();
+        b.renormalise(k);
+        b
+    }
+}
+
+/// Split points that leave a branch together into groups that are still connected to each
+/// other (pseudo-hyperbolic closeness `1 − |φ_{w_j}(w_k)|` at least `pinch`).
+fn group_connected(pts: Vec<Tracked>, pinch: f64) -> Vec<Vec<Tracked>> {
+    let n = pts.len();
+    let mut label: Vec<usize> = (0..n).collect();
+    for a in 0..n {
+        for b in (a + 1)..n {
+            let (wa, wb) = (pts[a].w, pts[b].w);
+            let m = (wb - wa) / (Complex64::new(1.0, 0.0) - wa.conj() * wb);
+            if 1.0 - m.norm() >= pinch {
+                let (la, lb) = (label[a], label[b]);
+                for l in label.iter_mut() {
+                    if *l == lb {
+                        *l = la;
+                    }
+                }
+            }
+        }
+    }
+    let mut groups: Vec<(usize, Vec<Tracked>)> = Vec::new();
+    for (i, p) in pts.into_iter().enumerate() {
+        match groups.iter_mut().find(|g| g.0 == label[i]) {
+            Some(g) => g.1.push(p),
+            None => groups.push((label[i], vec![p])),
+        }
+    }
+    groups.into_iter().map(|g| g.1).collect()
+}
+
+impl Branch {
+    /// The point with the largest Poisson kernel at the tip, the driver included (used when
+    /// the current driver is not a member, e.g. right after a split).
+    fn fastest_any(&self) -> usize {
+        let tip = Complex64::from_polar(1.0, self.theta);
+        let mut best = (0usize, f64::NEG_INFINITY);
+        for (j, p) in self.pts.iter().enumerate() {
+            let r = p.w.norm();
+            let pk = (1.0 - r) * (1.0 + r) / (tip - p.w).norm_sqr().max(f64::MIN_POSITIVE);
+            if pk > best.1 {
+                best = (j, pk);
+            }
+        }
+        best.0
+    }
+
+    /// At the start (tip and force point at 1) the driver is the point seen best from 1.
+    fn fastest_from_boundary(&self) -> usize {
+        self.fastest_any()
+    }
+}

@@ -45,6 +45,7 @@ pub mod laws;
 pub mod loewner;
 pub mod plot;
 pub mod radial;
+pub mod radii;
 pub mod report;
 pub mod rng;
 pub mod sle;

@@ -11,6 +11,7 @@
 
 use crate::loewner::ChordalStep;
 use num_complex::Complex64;
+use std::f64::consts::PI;
 
 const I: Complex64 = Complex64 { re: 0.0, im: 1.0 };
 
@@ -77,6 +78,30 @@ impl RadialStep {
             * self.dilation
             * (-2.0 * I / ((I + out) * (I + out)));
         (cayley_inv(out) * self.rot, d)
+    }
+
+    /// Image of the boundary point `e^{iα}` under the forward map, returned as an angle
+    /// `α'` with `α' − ξ ∈ [−π, π]`: boundary points flow away from the slit base `e^{iξ}`.
+    /// `side` (±1) decides the side for the base point itself (α = ξ), which splits in two.
+    ///
+    /// In the Cayley coordinate the boundary point is `x = tan((α − ξ)/2)`, the step maps it to
+    /// `e^{Δt/2} sign(x) √(x² + 4s)`, and back `α' = ξ + 2 atan(…)`.
+    pub fn forward_boundary_angle(&self, alpha: f64, side: f64) -> f64 {
+        let phi = (alpha - self.xi + PI).rem_euclid(2.0 * PI) - PI;
+        let x = (0.5 * phi).tan();
+        let sign = if phi > 0.0 || (phi == 0.0 && side > 0.0) {
+            1.0
+        } else {
+            -1.0
+        };
+        let s = self.chordal_capacity();
+        let y = sign * self.dilation * (x * x + 4.0 * s).sqrt();
+        self.xi + 2.0 * y.atan()
+    }
+
+    /// Capacity time `s = (1 − e^{−Δt})/4` of the chordal vertical slit in the Cayley frame.
+    fn chordal_capacity(&self) -> f64 {
+        -(-self.dt).exp_m1() / 4.0
     }
 
     /// The inverse map `f = g^{-1}`: D → D minus the slit.

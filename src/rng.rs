@@ -17,6 +17,8 @@ pub enum Tag {
     Driving = 0x6472_6976_696e_6701,
     /// Seeds drawn when the user gives none.
     SeedDraw = 0x7365_6564_6472_6177,
+    /// CLE explorations (one stream per branch of a sample's exploration tree).
+    Cle = 0x636c_655f_6578_706c,
 }
 
 /// The generator of sample `index` of a run with `seed`, for purpose `tag`.
@@ -24,6 +26,20 @@ pub fn stream(seed: u64, tag: Tag, index: u64) -> ChaCha8Rng {
     let mut key = [0u8; 32];
     key[..8].copy_from_slice(&seed.to_le_bytes());
     key[8..16].copy_from_slice(&(tag as u64).to_le_bytes());
+    let mut g = ChaCha8Rng::from_seed(key);
+    g.set_stream(index);
+    g
+}
+
+/// The generator of part `sub` of sample `index` (for example one branch of an exploration
+/// tree, numbered in the deterministic order in which the branches are created): the ChaCha key
+/// holds `(seed, tag, sub)` and the stream number is the sample index, so the result is a pure
+/// function of `(seed, tag, index, sub)`.
+pub fn substream(seed: u64, tag: Tag, index: u64, sub: u64) -> ChaCha8Rng {
+    let mut key = [0u8; 32];
+    key[..8].copy_from_slice(&seed.to_le_bytes());
+    key[8..16].copy_from_slice(&(tag as u64).to_le_bytes());
+    key[16..24].copy_from_slice(&sub.to_le_bytes());
     let mut g = ChaCha8Rng::from_seed(key);
     g.set_stream(index);
     g

@@ -7,6 +7,7 @@ mod audit_cmd;
 mod bench_cmd;
 mod common;
 mod laws_cmd;
+mod radii_cmd;
 mod tour;
 mod trace_cmd;
 
@@ -75,6 +76,7 @@ pub fn main() -> ExitCode {
         Some(Command::Trace(a)) => trace_cmd::run(&cli.global, a),
         Some(Command::Laws(a)) => laws_cmd::run(&cli.global, a),
         Some(Command::Audit(a)) => audit_cmd::run(&cli.global, a),
+        Some(Command::Radii(a)) => radii_cmd::run(&cli.global, a),
         Some(Command::Bench(a)) => bench_cmd::run(&cli.global, a),
     };
     match result {

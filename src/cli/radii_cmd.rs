@@ -1,0 +1,247 @@
+//! `sleek radii`: conformal radii of nested CLE loops around marked points, beside the exact
+//! laws.
+
+use super::args::{Global, RadiiArgs};
+use super::common::{self, out};
+use super::Failure;
+use serde::Serialize;
+use sleek::cle::ExploreSettings;
+use sleek::laws::CleLaw;
+use sleek::radii::{self, RadiiSettings, RadiiSummary};
+
+#[derive(Serialize)]
+struct RadiiRecord<'a> {
+    format: &'static str,
+    format_version: u32,
+    sleek_version: &'static str,
+    seed: u64,
+    settings: &'a RadiiSettings,
+    steps: u64,
+    summary: &'a RadiiSummary,
+    law_source: &'static str,
+    notes: Vec<String>,
+}
+
+pub fn run(g: &Global, a: &RadiiArgs) -> Result<(), Failure> {
+    let law = CleLaw::new(a.kappa)?;
+    let points: Vec<[f64; 2]> = if a.at.is_empty() {
+        vec![[0.0, 0.0]]
+    } else {
+        a.at.iter().map(|&(x, y)| [x, y]).collect()
+    };
+    for p in &points {
+        if p[0] * p[0] + p[1] * p[1] >= 1.0 {
+            return Err(Failure::Usage(format!(
+                "invalid value '{},{}' for '--at <X,Y>': the point must be inside the open unit \
+                 disk (x² + y² < 1)",
+                p[0], p[1]
+            )));
+        }
+    }
+    if a.levels > 1000 {
+        return Err(Failure::Usage(format!(
+            "invalid value '{}' for '--levels <LEVELS>': at most 1000",
+            a.levels
+        )));
+    }
+    if a.step > 0.1 {
+        return Err(Failure::Usage(format!(
+            "invalid value '{}' for '--step <STEP>': must be in (0, 0.1] (the scheme is checked \
+             up to 0.04)",
+            a.step
+        )));
+    }
+    let lambdas = if a.lambda.is_empty() {
+        vec![-0.25 * law.lambda_star(), 0.5, 1.0, 2.0]
+    } else {
+        a.lambda.clone()
+    };
+    let nesting_at = if a.nesting_at.is_empty() {
+        vec![5.0, 10.0, 20.0]
+    } else {
+        a.nesting_at.clone()
+    };
+    let mut explore = ExploreSettings::defaults(a.kappa, a.levels as usize);
+    explore.h_max = a.step;
+    let settings = RadiiSettings {
+        kappa: a.kappa,
+        points: points.clone(),
+        samples: a.samples,
+        explore,
+        lambdas,
+        nesting_at,
+    };
+    let seed = common::resolve_seed(g);
+    let pb = common::progress(g, a.samples, "radii");
+    let run = radii::run(&settings, seed, &|| pb.inc(1))?;
+    pb.finish_and_clear();
+    let summary = radii::summarise(&run)?;
+    let mut notes = vec![
+        "all points of a sample are in one CLE configuration; loop ids are shared by points \
+         that share a loop"
+            .to_string(),
+        format!(
+            "discretisation: angle-process step {} (radial time); loops close at the end of the \
+             step in which the Bessel bridge visited 2π, so each T_k carries a bias below one step",
+            a.step
+        ),
+    ];
+    if summary.levels.iter().any(|r| r.censored > 0) {
+        notes.push(format!(
+            "some samples stopped before finding all levels (radial time budget {:.0}); their \
+             missing levels are left out of the statistics",
+            explore.max_time
+        ));
+    }
+    if let Some(path) = &a.export_csv {
+        common::write_file(path, radii::loops_csv(&run).as_bytes())?;
+        common::note(g, &format!("wrote {}", path.display()));
+    }
+    let record = RadiiRecord {
+        format: "sleek/radii",
+        format_version: 1,
+        sleek_version: env!("CARGO_PKG_VERSION"),
+        seed,
+        settings: &settings,
+        steps: run.steps,
+        summary: &summary,
+        law_source: "Schramm, Sheffield & Wilson, Commun. Math. Phys. 2009 (conformal radius \
+                     law); nesting: Miller, Watson & Wilson, Ann. Probab. 2016",
+        notes,
+    };
+    let json = serde_json::to_string_pretty(&record)
+        .map_err(|e| Failure::Runtime(format!("cannot encode JSON: {e}")))?;
+    if let Some(p) = common::in_out(g, "radii.json") {
+        if let Some(d) = p.parent() {
+            std::fs::create_dir_all(d)
+                .map_err(|e| Failure::Runtime(format!("cannot create {}: {e}", d.display())))?;
+        }
+        common::write_file(&p, json.as_bytes())?;
+        common::note(g, &format!("wrote {}", p.display()));
+    }
+    if g.json {
+        out!("{json}");
+        return Ok(());
+    }
+    print_table(&record, &points)
+}
+
+fn print_table(r: &RadiiRecord, points: &[[f64; 2]]) -> Result<(), Failure> {
+    let s = r.summary;
+    out!(
+        "CLE_κ conformal radii, κ = {}, {} samples per point, seed {}, step {}",
+        s.kappa,
+        r.settings.samples,
+        r.seed,
+        r.settings.explore.h_max
+    );
+    out!("exact law: {}", r.law_source);
+    out!("λ* = {:.6}", s.lambda_star);
+    for (j, p) in points.iter().enumerate() {
+        out!("");
+        out!("point {j} at ({}, {})", p[0], p[1]);
+        out!(
+            "  {:>5} {:>6} {:>22} {:>9} {:>10} {:>10}",
+            "level",
+            "n",
+            "E[ΔT] ± s.e.",
+            "exact",
+            "Var[ΔT]",
+            "exact"
+        );
+        for row in s.levels.iter().filter(|x| x.point == j) {
+            out!(
+                "  {:>5} {:>6} {:>14.4} ± {:<6.4} {:>9.4} {:>10.3} {:>10.3}{}",
+                row.level,
+                row.n,
+                row.mean,
+                row.mean_se,
+                row.mean_exact,
+                row.variance,
+                row.variance_exact,
+                if row.censored > 0 {
+                    format!("  ({} censored)", row.censored)
+                } else {
+                    String::new()
+                }
+            );
+        }
+        out!(
+            "  {:>5} {:>8} {:>24} {:>11} {:>7}",
+            "level",
+            "λ",
+            "E[CR^λ] ± s.e.",
+            "exact",
+            "dev/σ"
+        );
+        for row in s.levels.iter().filter(|x| x.point == j) {
+            for m in &row.moments {
+                out!(
+                    "  {:>5} {:>8.4} {:>14.6} ± {:<8.6} {:>11.6} {:>7.2}{}",
+                    row.level,
+                    m.lambda,
+                    m.estimate,
+                    m.std_error,
+                    m.exact,
+                    m.deviation_sigma,
+                    if m.infinite_variance {
+                        "  (λ ≤ −λ*/2: infinite variance, s.e. unreliable)"
+                    } else {
+                        ""
+                    }
+                );
+            }
+        }
+        out!("  {:>8} {:>22} {:>10}", "s", "E[N(s)] ± s.e.", "renewal*");
+        for n in s.nesting.iter().filter(|x| x.point == j) {
+            match (n.mean, n.mean_se) {
+                (Some(m), Some(se)) => out!(
+                    "  {:>8.2} {:>14.4} ± {:<6.4} {:>10.4}",
+                    n.s,
+                    m,
+                    se,
+                    n.predicted
+                ),
+                _ => out!(
+                    "  {:>8.2} {:>23} {:>10.4}  ({} samples found all {} levels inside s; raise \
+                     --levels)",
+                    n.s,
+                    "—",
+                    n.predicted,
+                    n.truncated,
+                    r.settings.explore.levels
+                ),
+            }
+        }
+    }
+    if !s.pairs.is_empty() {
+        out!("");
+        out!(
+            "pairs (same configurations): {:>6} {:>20} {:>14} {:>18}",
+            "n",
+            "shared loops ± s.e.",
+            "first shared",
+            "first separating"
+        );
+        for p in &s.pairs {
+            out!(
+                "  points {} and {}            {:>6} {:>12.4} ± {:<6.4} {:>13.4} {:>18}",
+                p.points[0],
+                p.points[1],
+                p.n,
+                p.shared_mean,
+                p.shared_se,
+                p.first_shared,
+                p.first_separating_level
+                    .map(|l| format!("level {l:.3}"))
+                    .unwrap_or_else(|| "—".into())
+            );
+        }
+    }
+    out!("");
+    out!("* renewal: s/E[T] + E[T²]/(2E[T]²) − 1, the large-s expansion of the mean count");
+    for n in &r.notes {
+        out!("note: {n}");
+    }
+    Ok(())
+}

@@ -1,0 +1,332 @@
+//! Conformal radii of the nested CLE_κ loops around marked points, summarised beside the exact
+//! laws (DESIGN §7.1–§7.2, §8).
+//!
+//! All marked points of a sample live in **one** CLE_κ configuration (DESIGN §6.2), so loops
+//! shared by several points are recognisable by their identifiers and joint statistics (loops
+//! surrounding both points of a pair, the first loop separating them) are meaningful.
+//!
+//! For a point z and level k, `T_k = log CR(D, z) − log CR(U_k, z)` (U_k the interior of the
+//! k-th loop around z, CR(D, z) = 1 − |z|²); the increments `T_k − T_{k−1}` are i.i.d. with the
+//! law of Schramm, Sheffield & Wilson (Commun. Math. Phys. 2009).
+
+use crate::cle::{CleExplorer, CleSample, ExploreSettings, PointRecord};
+use crate::error::{Error, Result};
+use crate::laws::CleLaw;
+use crate::stats::Moments;
+use num_complex::Complex64;
+use rayon::prelude::*;
+use serde::Serialize;
+
+/// What to sample.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RadiiSettings {
+    /// κ, 8/3 < κ < 8.
+    pub kappa: f64,
+    /// Marked points (x, y) in the open unit disk.
+    pub points: Vec<[f64; 2]>,
+    /// Samples per point.
+    pub samples: u64,
+    /// Exploration settings (levels, step sizes).
+    pub explore: ExploreSettings,
+    /// Exponents λ of the moments E[CR^λ] = E[e^{−λ ΔT}] to report (λ > −λ*).
+    pub lambdas: Vec<f64>,
+    /// Values s = log(1/ε) at which nesting counts N(s) = #{k : T_k ≤ s} are reported.
+    pub nesting_at: Vec<f64>,
+}
+
+/// The raw samples of a run: `records[i][j]` is sample i seen from point j.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RadiiRun {
+    /// The settings.
+    pub settings: RadiiSettings,
+    /// The seed.
+    pub seed: u64,
+    /// One row per sample, one record per point.
+    pub records: Vec<Vec<PointRecord>>,
+    /// Total steps of all explorations.
+    pub steps: u64,
+}
+
+/// Run the explorations (parallel over samples; each sample is a pure function of
+/// (seed, sample index), so the result does not depend on the thread count).
+/// `tick` is called once per finished sample (for progress bars).
+///
+/// Errors: [`Error::InvalidParameter`] for κ outside (8/3, 8), points outside the open disk,
+/// no points, zero samples, or λ ≤ −λ*.
+pub fn run(settings: &RadiiSettings, seed: u64, tick: &(dyn Fn() + Sync)) -> Result<RadiiRun> {
+    let law = CleLaw::new(settings.kappa)?;
+    if settings.samples == 0 {
+        return Err(Error::param("samples", 0.0, "at least 1 sample"));
+    }
+    for &l in &settings.lambdas {
+        if !(l.is_finite() && l > -law.lambda_star()) {
+            return Err(Error::param(
+                "lambda",
+                l,
+                format!(
+                    "lambda > -lambda* = {:.6} (E[CR^lambda] is infinite below)",
+                    -law.lambda_star()
+                ),
+            ));
+        }
+    }
+    if settings.points.is_empty() {
+        return Err(Error::param("points", 0.0, "at least one marked point"));
+    }
+    let pts: Vec<Complex64> = settings
+        .points
+        .iter()
+        .map(|p| Complex64::new(p[0], p[1]))
+        .collect();
+    let explorer = CleExplorer::new(settings.kappa, &pts, settings.explore)?;
+    let rows: Vec<(Vec<PointRecord>, u64)> = (0..settings.samples)
+        .into_par_iter()
+        .map(|i| {
+            let s: CleSample = explorer.sample(seed, i);
+            tick();
+            (s.points, s.diagnostics.steps)
+        })
+        .collect();
+    let steps = rows.iter().map(|r| r.1).sum();
+    Ok(RadiiRun {
+        settings: settings.clone(),
+        seed,
+        records: rows.into_iter().map(|r| r.0).collect(),
+        steps,
+    })
+}
+
+/// One estimated moment beside its exact value.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct MomentRow {
+    /// λ.
+    pub lambda: f64,
+    /// Sample mean of CR^λ = e^{−λ ΔT}.
+    pub estimate: f64,
+    /// Its standard error (sample standard deviation / √n).
+    pub std_error: f64,
+    /// Exact E[CR^λ] (Schramm, Sheffield & Wilson 2009).
+    pub exact: f64,
+    /// (estimate − exact)/std_error.
+    pub deviation_sigma: f64,
+    /// True when λ ≤ −λ*/2: E[CR^{2λ}] = ∞, so the standard error is not meaningful.
+    pub infinite_variance: bool,
+}
+
+/// Statistics of the level-k increments at one point.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct LevelRow {
+    /// Point index (order of the `--at` options).
+    pub point: usize,
+    /// Level k (1 = outermost loop).
+    pub level: usize,
+    /// Samples that found loop k.
+    pub n: u64,
+    /// Samples stopped before loop k (time or step budget).
+    pub censored: u64,
+    /// Mean of ΔT_k and its standard error.
+    pub mean: f64,
+    /// Standard error of the mean.
+    pub mean_se: f64,
+    /// Exact E[T].
+    pub mean_exact: f64,
+    /// Sample variance of ΔT_k.
+    pub variance: f64,
+    /// Exact Var[T].
+    pub variance_exact: f64,
+    /// E[CR^λ] on the λ grid.
+    pub moments: Vec<MomentRow>,
+}
+
+/// Nesting count N(s) = #{k ≥ 1 : T_k ≤ s} at one point, s = log(1/ε).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct NestingRow {
+    /// Point index.
+    pub point: usize,
+    /// s = log(1/ε) (ε relative to CR(D, z)).
+    pub s: f64,
+    /// Mean count (None when some sample's count is only a lower bound: raise the levels).
+    pub mean: Option<f64>,
+    /// Standard error of the mean count.
+    pub mean_se: Option<f64>,
+    /// Renewal-theory prediction s/E[T] + E[T²]/(2E[T]²) − 1 (asymptotic in s; Miller,
+    /// Watson & Wilson, Ann. Probab. 2016 give the leading term s/E[T]).
+    pub predicted: f64,
+    /// Samples whose deepest loop found is still inside s (their count is only a lower bound);
+    /// the mean is reported only when this is 0, since leaving them out would bias it down.
+    pub truncated: u64,
+}
+
+/// Joint statistics of two marked points of the same configurations.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct PairRow {
+    /// The two point indices.
+    pub points: [usize; 2],
+    /// Samples in which both points found all their levels (the others are left out).
+    pub n: u64,
+    /// Mean number of loops (among the levels found) surrounding both points.
+    pub shared_mean: f64,
+    /// Its standard error.
+    pub shared_se: f64,
+    /// Fraction of samples whose outermost loop around the first point also surrounds the
+    /// second.
+    pub first_shared: f64,
+    /// Mean level (around the first point) of the first loop that surrounds one point but not
+    /// the other, over the samples where it is among the levels found.
+    pub first_separating_level: Option<f64>,
+}
+
+/// The summary of a run.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct RadiiSummary {
+    /// κ.
+    pub kappa: f64,
+    /// λ* = 1 − 2/κ − 3κ/32.
+    pub lambda_star: f64,
+    /// Per point and level.
+    pub levels: Vec<LevelRow>,
+    /// Nesting counts.
+    pub nesting: Vec<NestingRow>,
+    /// Joint statistics of every pair of points.
+    pub pairs: Vec<PairRow>,
+}
+
+/// Summarise a run against the exact laws.
+///
+/// Errors: [`Error::InvalidParameter`] if κ is outside (8/3, 8).
+pub fn summarise(run: &RadiiRun) -> Result<RadiiSummary> {
+    let s = &run.settings;
+    let law = CleLaw::new(s.kappa)?;
+    let mut levels = Vec::new();
+    let mut nesting = Vec::new();
+    let mean_exact = law.mean_t();
+    let second = law.var_t() + mean_exact * mean_exact;
+    for j in 0..s.points.len() {
+        for k in 1..=s.explore.levels {
+            let mut inc = Vec::new();
+            let mut censored = 0;
+            for row in &run.records {
+                let t = row[j].times();
+                if t.len() >= k {
+                    inc.push(if k == 1 { t[0] } else { t[k - 1] - t[k - 2] });
+                } else {
+                    censored += 1;
+                }
+            }
+            let m: Moments = inc.iter().copied().collect();
+            let moments = s
+                .lambdas
+                .iter()
+                .map(|&l| {
+                    let mm: Moments = inc.iter().map(|t| (-l * t).exp()).collect();
+                    let exact = law.cr_moment(l).unwrap_or(f64::NAN);
+                    let se = mm.std_error();
+                    MomentRow {
+                        lambda: l,
+                        estimate: mm.mean(),
+                        std_error: se,
+                        exact,
+                        deviation_sigma: (mm.mean() - exact) / se,
+                        infinite_variance: l <= -0.5 * law.lambda_star(),
+                    }
+                })
+                .collect();
+            levels.push(LevelRow {
+                point: j,
+                level: k,
+                n: m.n,
+                censored,
+                mean: m.mean(),
+                mean_se: m.std_error(),
+                mean_exact,
+                variance: m.variance(),
+                variance_exact: law.var_t(),
+                moments,
+            });
+        }
+        for &sv in &s.nesting_at {
+            let mut c = Moments::new();
+            let mut truncated = 0;
+            for row in &run.records {
+                let t = row[j].times();
+                let n = t.iter().filter(|&&x| x <= sv).count();
+                if n == t.len() && (row[j].censored || t.len() == s.explore.levels) {
+                    truncated += 1;
+                } else {
+                    c.push(n as f64);
+                }
+            }
+            nesting.push(NestingRow {
+                point: j,
+                s: sv,
+                mean: (truncated == 0).then(|| c.mean()),
+                mean_se: (truncated == 0).then(|| c.std_error()),
+                predicted: sv / mean_exact + second / (2.0 * mean_exact * mean_exact) - 1.0,
+                truncated,
+            });
+        }
+    }
+    let mut pairs = Vec::new();
+    let full = |r: &PointRecord| r.loops.len() == s.explore.levels;
+    for a in 0..s.points.len() {
+        for b in (a + 1)..s.points.len() {
+            let mut shared = Moments::new();
+            let mut first = 0u64;
+            let mut sep = Moments::new();
+            for row in &run.records {
+                let (ra, rb) = (&row[a], &row[b]);
+                if !(full(ra) && full(rb)) {
+                    continue;
+                }
+                let ids_b: Vec<u64> = rb.loops.iter().map(|l| l.loop_id).collect();
+                let common = ra
+                    .loops
+                    .iter()
+                    .filter(|l| ids_b.contains(&l.loop_id))
+                    .count();
+                shared.push(common as f64);
+                if ids_b.contains(&ra.loops[0].loop_id) {
+                    first += 1;
+                }
+                // Nested loops shared by both points come first, so the first separating loop
+                // around `a` is the first of its loops not shared with `b`.
+                if let Some(k) = ra.loops.iter().position(|l| !ids_b.contains(&l.loop_id)) {
+                    sep.push((k + 1) as f64);
+                }
+            }
+            pairs.push(PairRow {
+                points: [a, b],
+                n: shared.n,
+                shared_mean: shared.mean(),
+                shared_se: shared.std_error(),
+                first_shared: first as f64 / shared.n.max(1) as f64,
+                first_separating_level: (sep.n > 0).then(|| sep.mean()),
+            });
+        }
+    }
+    Ok(RadiiSummary {
+        kappa: s.kappa,
+        lambda_star: law.lambda_star(),
+        levels,
+        nesting,
+        pairs,
+    })
+}
+
+/// CSV of the loops: `sample,point,x,y,level,loop,log_cr` (log_cr = natural log of the
+/// conformal radius of the level-th loop's interior seen from the point, disk coordinates;
+/// `loop` = the loop's identifier within its sample: points that share a loop share it).
+pub fn loops_csv(run: &RadiiRun) -> String {
+    let mut out = String::from("sample,point,x,y,level,loop,log_cr\n");
+    for (i, row) in run.records.iter().enumerate() {
+        for (j, rec) in row.iter().enumerate() {
+            for l in &rec.loops {
+                out.push_str(&format!(
+                    "{i},{j},{},{},{},{},{}\n",
+                    rec.z[0], rec.z[1], l.level, l.loop_id, l.log_cr
+                ));
+            }
+        }
+    }
+    out
+}
