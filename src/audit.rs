@@ -47,6 +47,10 @@ pub struct AuditSettings {
     pub exact_steps: usize,
     /// Deviations beyond this many standard errors count as failures.
     pub sigma_limit: f64,
+    /// κ values for the CLE checks (each in (8/3, 8); empty: none).
+    pub cle_kappas: Vec<f64>,
+    /// CLE configurations per κ (three marked points in each).
+    pub cle_samples: usize,
 }
 
 impl AuditSettings {
@@ -64,6 +68,8 @@ impl AuditSettings {
             step: StepKind::Tilted,
             exact_steps: 256,
             sigma_limit: 4.0,
+            cle_kappas: vec![3.0, 6.0],
+            cle_samples: 2000,
         }
     }
 
@@ -72,6 +78,16 @@ impl AuditSettings {
     /// # Errors
     /// The first setting out of range.
     pub fn validate(&self) -> Result<()> {
+        for &k in &self.cle_kappas {
+            crate::laws::CleLaw::new(k)?;
+        }
+        if !self.cle_kappas.is_empty() && !(10..=10_000_000).contains(&self.cle_samples) {
+            return Err(Error::param(
+                "cle-samples",
+                self.cle_samples as f64,
+                "an integer in [10, 1e7] (or no CLE kappa)",
+            ));
+        }
         if self.samples < 10 {
             return Err(Error::param("samples", self.samples, "an integer ≥ 10"));
         }
@@ -222,6 +238,9 @@ pub fn run(settings: &AuditSettings, progress: &(dyn Fn(u64, u64) + Sync)) -> Re
             progress(d, total);
         })?);
     }
+    for &kappa in &settings.cle_kappas {
+        checks.extend(cle_checks(settings, kappa)?);
+    }
     let mut convergence = ray_convergence()?;
     convergence.extend(endpoint_convergence(settings.seed)?);
     convergence.extend(left_passage_convergence(settings)?);
@@ -230,6 +249,105 @@ pub fn run(settings: &AuditSettings, progress: &(dyn Fn(u64, u64) + Sync)) -> Re
         checks,
         convergence,
     })
+}
+
+const SSW: &str = "Schramm, Sheffield & Wilson, Commun. Math. Phys. 2009";
+
+/// Marked points of the CLE checks: the first target and two points away from it.
+pub const CLE_POINTS: [(f64, f64); 3] = [(0.0, 0.0), (0.5, 0.0), (-0.3, 0.5)];
+
+/// The conformal-radius law at three marked points of one CLE_κ configuration (levels 1 and 2,
+/// E[T] and E[CR]), then E[T] at the target for steps 0.04, 0.02, 0.01, 0.005 on the same
+/// streams (the discretisation study; Info rows, with their standard errors).
+///
+/// # Errors
+/// κ outside (8/3, 8).
+pub fn cle_checks(s: &AuditSettings, kappa: f64) -> Result<Vec<CheckRow>> {
+    use crate::cle::{CleExplorer, ExploreSettings};
+    use crate::laws::CleLaw;
+    let law = CleLaw::new(kappa)?;
+    let pts: Vec<Complex64> = CLE_POINTS
+        .iter()
+        .map(|&(x, y)| Complex64::new(x, y))
+        .collect();
+    let seed = s.seed ^ 0x636c_6500 ^ kappa.to_bits();
+    let ex = CleExplorer::new(kappa, &pts, ExploreSettings::defaults(kappa, 2))?;
+    let n = s.cle_samples as u64;
+    let samples: Vec<_> = (0..n).into_par_iter().map(|i| ex.sample(seed, i)).collect();
+    let mut rows = Vec::new();
+    let e1 = law.cr_moment(1.0)?;
+    let sd_cr = (law.cr_moment(2.0)? - e1 * e1).sqrt();
+    for (j, &(x, y)) in CLE_POINTS.iter().enumerate() {
+        for level in 1..=2usize {
+            let t: Vec<f64> = samples
+                .iter()
+                .filter_map(|smp| {
+                    let t = smp.points[j].times();
+                    (t.len() >= level).then(|| {
+                        if level == 1 {
+                            t[0]
+                        } else {
+                            t[1] - t[0]
+                        }
+                    })
+                })
+                .collect();
+            let m = t.len() as f64;
+            let mean = t.iter().sum::<f64>() / m;
+            let cr = t.iter().map(|v| (-v).exp()).sum::<f64>() / m;
+            for (what, est, exact, se) in [
+                ("E[ΔT]", mean, law.mean_t(), (law.var_t() / m).sqrt()),
+                ("E[CR]", cr, e1, sd_cr / m.sqrt()),
+            ] {
+                let dev = (est - exact) / se;
+                rows.push(CheckRow {
+                    check: format!(
+                        "CLE_{}: {what} at level {level} around ({x}, {y}), 3 points per configuration",
+                        fmt_kappa(kappa)
+                    ),
+                    source: SSW,
+                    estimate: est,
+                    std_error: Some(se),
+                    exact,
+                    deviation_sigma: Some(dev),
+                    bias_bound: None,
+                    resolution: format!("{} configurations, angle step 0.01", t.len()),
+                    verdict: if dev.abs() <= s.sigma_limit {
+                        Verdict::Pass
+                    } else {
+                        Verdict::Fail
+                    },
+                });
+            }
+        }
+    }
+    let m = 2 * n;
+    for h in [0.04, 0.02, 0.01, 0.005] {
+        let mut st = ExploreSettings::defaults(kappa, 1);
+        st.h_max = h;
+        let one = CleExplorer::new(kappa, &[Complex64::new(0.0, 0.0)], st)?;
+        let t: Vec<f64> = (0..m)
+            .into_par_iter()
+            .filter_map(|i| one.sample(seed, i).points[0].times().first().copied())
+            .collect();
+        let mean = t.iter().sum::<f64>() / t.len() as f64;
+        let se = (law.var_t() / t.len() as f64).sqrt();
+        rows.push(CheckRow {
+            check: format!(
+                "CLE_{}: E[T] at the target, angle step {h} (discretisation study)",
+                fmt_kappa(kappa)
+            ),
+            source: SSW,
+            estimate: mean,
+            std_error: Some(se),
+            exact: law.mean_t(),
+            deviation_sigma: Some((mean - law.mean_t()) / se),
+            bias_bound: None,
+            resolution: format!("{} explorations, same streams at every step", t.len()),
+            verdict: Verdict::Info,
+        });
+    }
+    Ok(rows)
 }
 
 /// Exact solutions: constant driving (both step kinds) and `W = c√t` (one tilted step is exact;

@@ -175,3 +175,92 @@ pub fn run(s: &BenchSettings, progress: &dyn Fn(&str)) -> Result<BenchReport> {
         agreement,
     })
 }
+
+/// One CLE timing: explorations of CLE_κ with a number of marked points.
+#[derive(Debug, Clone, Serialize)]
+pub struct CleTiming {
+    /// κ.
+    pub kappa: f64,
+    /// Marked points per configuration (0: the bare angle process, no geometry).
+    pub points: usize,
+    /// Configurations (or angle-process runs) timed.
+    pub samples: u64,
+    /// Steps taken in all of them.
+    pub steps: u64,
+    /// Wall-clock seconds (all threads of the current rayon pool).
+    pub seconds: f64,
+    /// Steps per second.
+    pub steps_per_second: f64,
+    /// Cost of one step relative to a step of the bare angle process at the same κ.
+    pub relative_step_cost: f64,
+}
+
+/// Marked points of the CLE benchmark: the first `m` of a fixed spread of the disk.
+fn bench_points(m: usize) -> Vec<num_complex::Complex64> {
+    (0..m)
+        .map(|k| {
+            let r = 0.75 * ((k + 1) as f64 / m as f64).sqrt();
+            num_complex::Complex64::from_polar(if k == 0 { 0.0 } else { r }, 2.4 * k as f64)
+        })
+        .collect()
+}
+
+/// Time the bare angle process (one level per run) and explorations with 1, 3 and 10 marked
+/// points (one level each) at every κ of `kappas`, `samples` runs each, seed `seed`.
+///
+/// # Errors
+/// κ outside (8/3, 8).
+pub fn run_cle(kappas: &[f64], samples: u64, seed: u64) -> Result<Vec<CleTiming>> {
+    use crate::cle::{AngleProcess, CleExplorer, EndVisit, ExploreSettings};
+    use rayon::prelude::*;
+    let mut out = Vec::new();
+    for &kappa in kappas {
+        let process = AngleProcess::new(kappa)?;
+        let st = ExploreSettings::defaults(kappa, 1);
+        let t0 = Instant::now();
+        let steps: u64 = (0..samples)
+            .into_par_iter()
+            .map(|i| {
+                let mut g = crate::rng::substream(seed, crate::rng::Tag::Cle, i, u64::MAX);
+                let (mut theta, mut n) = (0.0, 0u64);
+                loop {
+                    let s = process.step(theta, st.h_max, &mut g);
+                    n += 1;
+                    if s.visit == EndVisit::Full || n as f64 * st.h_max > st.max_time {
+                        return n;
+                    }
+                    theta = s.theta;
+                }
+            })
+            .sum();
+        let bare = t0.elapsed().as_secs_f64() / steps as f64;
+        out.push(CleTiming {
+            kappa,
+            points: 0,
+            samples,
+            steps,
+            seconds: bare * steps as f64,
+            steps_per_second: 1.0 / bare,
+            relative_step_cost: 1.0,
+        });
+        for m in [1usize, 3, 10] {
+            let ex = CleExplorer::new(kappa, &bench_points(m), st)?;
+            let t0 = Instant::now();
+            let steps: u64 = (0..samples)
+                .into_par_iter()
+                .map(|i| ex.sample(seed, i).diagnostics.steps)
+                .sum();
+            let secs = t0.elapsed().as_secs_f64();
+            out.push(CleTiming {
+                kappa,
+                points: m,
+                samples,
+                steps,
+                seconds: secs,
+                steps_per_second: steps as f64 / secs,
+                relative_step_cost: secs / steps as f64 / bare,
+            });
+        }
+    }
+    Ok(out)
+}

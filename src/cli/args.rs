@@ -80,6 +80,13 @@ pub struct BenchArgs {
     /// Largest curve for the fast method (the direct method stops at 30000 steps).
     #[arg(long, default_value = "1000000", value_parser = parse_count)]
     pub max_n: u64,
+    /// Time the CLE exploration instead: steps per second of the bare angle process and of
+    /// explorations with 1, 3 and 10 marked points, at κ = 3, 4, 16/3, 6.
+    #[arg(long)]
+    pub cle: bool,
+    /// Runs per CLE timing (with --cle).
+    #[arg(long, default_value = "1000", value_parser = parse_count)]
+    pub cle_samples: u64,
 }
 
 #[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
@@ -212,6 +219,14 @@ pub struct AuditArgs {
     /// Deviation (in standard errors) beyond which a statistical check fails.
     #[arg(long, default_value = "4", value_parser = parse_positive)]
     pub sigma_limit: f64,
+    /// κ values for the CLE conformal-radius checks, each in (8/3, 8) (repeatable; default 3
+    /// and 6).
+    #[arg(long, value_parser = parse_kappa)]
+    pub cle_kappa: Vec<f64>,
+    /// CLE configurations per κ (3 marked points each; the step study uses twice as many
+    /// single-point explorations); 0 skips the CLE checks.
+    #[arg(long, default_value = "2000")]
+    pub cle_samples: u64,
 }
 
 #[derive(Args, Debug)]

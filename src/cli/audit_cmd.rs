@@ -58,6 +58,13 @@ pub fn run(g: &Global, a: &AuditArgs) -> Result<(), Failure> {
     }
     s.step = step_kind(a.step);
     s.sigma_limit = a.sigma_limit;
+    if !a.cle_kappa.is_empty() {
+        s.cle_kappas = a.cle_kappa.clone();
+    }
+    if a.cle_samples == 0 {
+        s.cle_kappas.clear();
+    }
+    s.cle_samples = a.cle_samples.min(10_000_000) as usize;
     s.validate()?;
     s.seed = resolve_seed(g);
     let (report, elapsed) = run_audit(g, &s)?;

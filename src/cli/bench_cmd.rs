@@ -7,6 +7,9 @@ use super::Failure;
 use sleek::bench::{self, BenchSettings};
 
 pub fn run(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
+    if a.cle {
+        return run_cle(g, a);
+    }
     let mut s = BenchSettings::default();
     s.fast_only.retain(|&n| n as u64 <= a.max_n);
     s.common.retain(|&n| n as u64 <= a.max_n);
@@ -84,6 +87,60 @@ pub fn run(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
             ag.kappa,
             ag.max_deviation_rel,
             ag.n
+        );
+    }
+    Ok(())
+}
+
+fn run_cle(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
+    let kappas = [3.0, 4.0, 16.0 / 3.0, 6.0];
+    let seed = g.seed.unwrap_or(1);
+    note(g, "timing the CLE exploration (one level per run, angle step 0.01)");
+    let rows = bench::run_cle(&kappas, a.cle_samples.min(1_000_000), seed)?;
+    let rec = serde_json::json!({
+        "format": "sleek/bench-cle",
+        "format_version": sleek::io::FORMAT_VERSION,
+        "sleek_version": env!("CARGO_PKG_VERSION"),
+        "threads": rayon::current_num_threads(),
+        "note": "points = 0 is the bare angle process (no geometry); relative cost is per step",
+        "rows": rows,
+    });
+    let text = serde_json::to_string_pretty(&rec).map_err(|e| Failure::Runtime(e.to_string()))?;
+    if let Some(p) = in_out(g, "bench-cle.json") {
+        write_file(&p, text.as_bytes())?;
+        note(g, &format!("wrote {}", p.display()));
+    }
+    if g.json {
+        out!("{text}");
+        return Ok(());
+    }
+    out!(
+        "CLE exploration, {} runs per row, {} threads, angle step 0.01, one level",
+        a.cle_samples,
+        rayon::current_num_threads()
+    );
+    out!(
+        "{:>6}  {:>7}  {:>12}  {:>9}  {:>14}  {:>14}",
+        "κ",
+        "points",
+        "steps",
+        "seconds",
+        "steps/s",
+        "cost per step"
+    );
+    for r in &rows {
+        out!(
+            "{:>6.3}  {:>7}  {:>12}  {:>9.3}  {:>14.3e}  {:>13.2}×",
+            r.kappa,
+            if r.points == 0 {
+                "bare".to_string()
+            } else {
+                r.points.to_string()
+            },
+            r.steps,
+            r.seconds,
+            r.steps_per_second,
+            r.relative_step_cost
         );
     }
     Ok(())
