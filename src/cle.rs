@@ -115,12 +115,43 @@ impl AngleProcess {
         })
     }
 
+    /// The angle process θ = ξ − η of radial SLE_κ(ρ) with its force point on the clockwise
+    /// side of the start, `dθ = √κ dB + ((ρ+2)/2) cot(θ/2) dt` on (0, 2π) (DESIGN §5), stepped by
+    /// the same exact scheme (Bessel dimension δ = 1 + 2(ρ+2)/κ near the ends; reflected at 0
+    /// when δ < 2, never at an end when δ ≥ 2).
+    ///
+    /// Errors: [`Error::InvalidParameter`] unless κ ∈ (0, 10⁴] and ρ > −2 (for ρ ≤ −2 the
+    /// process is not defined without a principal-value construction, which only the CLE case
+    /// ρ = κ − 6 has here).
+    pub fn radial_rho(kappa: f64, rho: f64) -> Result<Self> {
+        if !(kappa.is_finite() && kappa > 0.0 && kappa <= 1e4) {
+            return Err(Error::param("kappa", kappa, "0 < kappa <= 1e4"));
+        }
+        if !(rho.is_finite() && rho > -2.0 && rho <= 1e4) {
+            return Err(Error::param(
+                "rho",
+                rho,
+                "-2 < rho <= 1e4 (radial SLE_kappa(rho) with a force point needs rho > -2)",
+            ));
+        }
+        let delta = 1.0 + 2.0 * (rho + 2.0) / kappa;
+        Ok(AngleProcess {
+            kappa,
+            sqrt_kappa: kappa.sqrt(),
+            delta,
+            // ν ≤ 0 (δ ≥ 2): the ends are never visited.
+            nu: 1.0 - 0.5 * delta,
+            drift: 0.5 * (rho + 2.0),
+            symmetric: false,
+        })
+    }
+
     /// κ.
     pub fn kappa(&self) -> f64 {
         self.kappa
     }
 
-    /// Dimension δ = 3 − 8/κ of the Bessel process that θ/√κ follows near its ends.
+    /// Dimension δ of the Bessel process that θ/√κ follows near its ends (3 − 8/κ for CLE).
     pub fn bessel_dimension(&self) -> f64 {
         self.delta
     }
@@ -177,7 +208,11 @@ impl AngleProcess {
             d_new = -d_new;
         }
         let z = d * x_new / (self.sqrt_kappa * h);
-        let p = bridge_hit_probability(self.nu, z);
+        let p = if self.nu > 0.0 {
+            bridge_hit_probability(self.nu, z)
+        } else {
+            0.0
+        };
         let u: f64 = rng.random();
         let visited = u < p;
         if near_full {

@@ -176,3 +176,128 @@ impl RadialChain {
             .fold(tip, |z, s| s.inverse(z))
     }
 }
+
+/// Radial SLE_κ in the unit disk from 1 towards 0, or radial SLE_κ(ρ) with its force point
+/// immediately clockwise of 1, on `steps` equal steps of radial time up to `time`
+/// (DESIGN §2, §5): `t = −log CR(D_t, 0)`.
+///
+/// Without ρ the driving angle is ξ = √κ B (piecewise constant: the value at each step's end).
+/// With ρ the angle θ = ξ − η is stepped by [`crate::cle::AngleProcess::radial_rho`] and the
+/// force point η moves by the exact image of the boundary point under each step; if θ reaches
+/// 2π (the trace disconnects the force point from 0) the curve stops there and says so.
+#[derive(Debug, Clone)]
+pub struct RadialSle {
+    kappa: f64,
+    rho: Option<f64>,
+    time: f64,
+    steps: usize,
+}
+
+/// One sampled radial curve.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RadialCurve {
+    /// Sample index.
+    pub index: u64,
+    /// Radial times t_k of the trace points (t_0 = 0).
+    pub times: Vec<f64>,
+    /// Driving angles ξ_k of the steps (unwrapped).
+    pub driving: Vec<f64>,
+    /// Force-point angles η_k after each step (with ρ only).
+    pub force: Vec<f64>,
+    /// The trace points γ(t_k), k = 0..=n (direct composition of the inverse steps).
+    pub points: Vec<Complex64>,
+    /// Radial time at which θ reached 2π, if it did (the curve stops there).
+    pub stopped_at: Option<f64>,
+}
+
+impl RadialSle {
+    /// A sampler.
+    ///
+    /// Errors: [`crate::Error::InvalidParameter`] for κ outside (0, 10⁴], ρ ≤ −2, a time
+    /// outside (0, 50] or steps outside [1, 10⁵] (the trace is composed directly, O(steps²)).
+    pub fn new(kappa: f64, rho: Option<f64>, time: f64, steps: usize) -> crate::Result<Self> {
+        use crate::error::Error;
+        if !(kappa.is_finite() && kappa > 0.0 && kappa <= 1e4) {
+            return Err(Error::param("kappa", kappa, "0 < kappa <= 1e4"));
+        }
+        if let Some(r) = rho {
+            crate::cle::AngleProcess::radial_rho(kappa, r)?;
+        }
+        if !(time.is_finite() && time > 0.0 && time <= 50.0) {
+            return Err(Error::param(
+                "time",
+                time,
+                "0 < t <= 50 (radial time: the hull's conformal radius seen from 0 is e^-t)",
+            ));
+        }
+        if !(1..=100_000).contains(&steps) {
+            return Err(Error::param(
+                "points",
+                steps as f64,
+                "1 <= points <= 100000 for radial curves (direct composition, O(points²))",
+            ));
+        }
+        Ok(RadialSle {
+            kappa,
+            rho,
+            time,
+            steps,
+        })
+    }
+
+    /// Sample `index` of a run with `seed` (a pure function of both).
+    pub fn sample(&self, seed: u64, index: u64) -> RadialCurve {
+        use rand_distr::{Distribution, StandardNormal};
+        let mut g = crate::rng::stream(seed, crate::rng::Tag::Driving, index);
+        let h = self.time / self.steps as f64;
+        let mut chain = RadialChain::new();
+        let mut times = vec![0.0];
+        let mut driving = Vec::with_capacity(self.steps);
+        let mut force = Vec::new();
+        let mut stopped_at = None;
+        match self.rho {
+            None => {
+                let mut xi = 0.0;
+                for k in 0..self.steps {
+                    let z: f64 = StandardNormal.sample(&mut g);
+                    xi += (self.kappa * h).sqrt() * z;
+                    chain.push(RadialStep::new(xi, h));
+                    driving.push(xi);
+                    times.push((k + 1) as f64 * h);
+                }
+            }
+            Some(rho) => {
+                let process = crate::cle::AngleProcess::radial_rho(self.kappa, rho)
+                    .expect("validated in new");
+                let (mut theta, mut eta) = (0.0, 0.0);
+                for k in 0..self.steps {
+                    let st = process.step(theta, h, &mut g);
+                    if st.visit == crate::cle::EndVisit::Full {
+                        stopped_at = Some(k as f64 * h);
+                        break;
+                    }
+                    let xi = eta + st.theta;
+                    let step = RadialStep::new(xi, h);
+                    let moved = step.forward_boundary_angle(eta, -1.0);
+                    // The force point stays clockwise of the tip by less than a turn.
+                    eta = xi - (xi - moved).rem_euclid(2.0 * PI);
+                    chain.push(step);
+                    driving.push(xi);
+                    force.push(eta);
+                    theta = st.theta;
+                    times.push((k + 1) as f64 * h);
+                }
+            }
+        }
+        let n = chain.steps().len();
+        let points = (0..=n).map(|k| chain.trace_point(k)).collect();
+        RadialCurve {
+            index,
+            times,
+            driving,
+            force,
+            points,
+            stopped_at,
+        }
+    }
+}

@@ -92,3 +92,30 @@ fn conformal_radius_rate_is_the_squared_poisson_kernel() {
     // At the target itself, −log CR(D_t, 0) is the radial time.
     assert!((-chain.log_conformal_radius(C::new(0.0, 0.0)) - chain.time()).abs() < 1e-12);
 }
+
+#[test]
+fn radial_sle_traces_respect_koebe_quarter_bound() {
+    // Every trace point lies on the boundary of D_t, whose conformal radius seen from 0 is
+    // e^{−t}; by Koebe's 1/4 theorem (common practice) its distance to 0 is at least e^{−t}/4,
+    // and the curve stays in the closed disk. Checked for radial SLE_2 and SLE_2(ρ = 1).
+    use sleek::radial::RadialSle;
+    for rho in [None, Some(1.0)] {
+        let sle = RadialSle::new(2.0, rho, 3.0, 600).unwrap();
+        for i in 0..4 {
+            let c = sle.sample(5, i);
+            // ρ = 1 ≥ κ/2 − 2: the Bessel dimension 1 + 2(ρ+2)/κ = 4 ≥ 2, θ never reaches 2π.
+            assert!(c.stopped_at.is_none());
+            assert_eq!(c.points.len(), 601);
+            for (z, t) in c.points.iter().zip(&c.times) {
+                assert!(z.norm() <= 1.0 + 1e-12);
+                assert!(
+                    z.norm() >= 0.25 * (-t).exp() * (1.0 - 1e-9),
+                    "{z} at t = {t}"
+                );
+            }
+            assert_eq!(c, sle.sample(5, i));
+        }
+    }
+    assert!(RadialSle::new(2.0, Some(-2.0), 1.0, 10).is_err());
+    assert!(RadialSle::new(2.0, None, 0.0, 10).is_err());
+}

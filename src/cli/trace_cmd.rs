@@ -33,6 +33,7 @@ pub fn domain(d: DomainArg) -> ChordalDomain {
         DomainArg::HalfPlane => ChordalDomain::HalfPlane,
         DomainArg::Disk => ChordalDomain::Disk,
         DomainArg::Strip => ChordalDomain::Strip,
+        DomainArg::DiskRadial => ChordalDomain::Disk,
     }
 }
 
@@ -255,6 +256,7 @@ pub fn figure(run: &TraceRun) -> PlaneFigure {
             .collect(),
         domain: run.domain,
         view: None,
+        marks: None,
     }
 }
 
@@ -300,6 +302,9 @@ pub fn export(
 }
 
 pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
+    if a.domain == DomainArg::DiskRadial || a.rho.is_some() {
+        return super::radial_trace::run(g, a);
+    }
     if let Some(p) = &a.plot {
         let ext = p.extension().map(|e| e.to_string_lossy().to_lowercase());
         if !matches!(ext.as_deref(), Some("svg") | Some("png")) {
