@@ -283,13 +283,7 @@ pub fn cle_checks(s: &AuditSettings, kappa: f64) -> Result<Vec<CheckRow>> {
                 .iter()
                 .filter_map(|smp| {
                     let t = smp.points[j].times();
-                    (t.len() >= level).then(|| {
-                        if level == 1 {
-                            t[0]
-                        } else {
-                            t[1] - t[0]
-                        }
-                    })
+                    (t.len() >= level).then(|| if level == 1 { t[0] } else { t[1] - t[0] })
                 })
                 .collect();
             let m = t.len() as f64;

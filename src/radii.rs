@@ -12,7 +12,7 @@
 use crate::cle::{CleExplorer, CleSample, ExploreSettings, PointRecord};
 use crate::error::{Error, Result};
 use crate::laws::CleLaw;
-use crate::stats::Moments;
+use crate::stats::{choose_tail_threshold, ks_test, KsTest, Moments, TailFit, DEFAULT_TAIL_LEVELS};
 use num_complex::Complex64;
 use rayon::prelude::*;
 use serde::Serialize;
@@ -136,6 +136,24 @@ pub struct LevelRow {
     pub variance_exact: f64,
     /// E[CR^λ] on the λ grid.
     pub moments: Vec<MomentRow>,
+    /// Kolmogorov–Smirnov test of the ΔT_k against the exact CDF (None below 2 samples).
+    pub ks: Option<KsTest>,
+    /// Exponential fit of the tail of ΔT_k (threshold chosen among upper quantiles), beside
+    /// λ* and the exact rate at the same threshold (None when too few samples).
+    pub tail: Option<TailRow>,
+}
+
+/// Tail fit of one level beside the exact values.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TailRow {
+    /// The fitted rate of `T − t₀ | T > t₀` with its 95% interval.
+    pub fit: TailFit,
+    /// Whether successive thresholds agreed (see [`crate::stats::choose_tail_threshold`]).
+    pub threshold_stable: bool,
+    /// 1/E[T − t₀ | T > t₀] under the exact law: what the fit estimates at this threshold.
+    pub exact_rate_at_threshold: Option<f64>,
+    /// λ*, the limit of that rate as t₀ → ∞.
+    pub lambda_star: f64,
 }
 
 /// Nesting count N(s) = #{k ≥ 1 : T_k ≤ s} at one point, s = log(1/ε).
@@ -149,9 +167,13 @@ pub struct NestingRow {
     pub mean: Option<f64>,
     /// Standard error of the mean count.
     pub mean_se: Option<f64>,
-    /// Renewal-theory prediction s/E[T] + E[T²]/(2E[T]²) − 1 (asymptotic in s; Miller,
-    /// Watson & Wilson, Ann. Probab. 2016 give the leading term s/E[T]).
+    /// Exact E[N(s)] (the renewal function of the law of §7.1, by Laplace inversion; its
+    /// leading term s/E[T] is the Miller–Watson–Wilson rate, Ann. Probab. 2016).
     pub predicted: f64,
+    /// Exact standard deviation of N(s) (one sample).
+    pub predicted_sd: f64,
+    /// (mean − predicted)/mean_se.
+    pub deviation_sigma: Option<f64>,
     /// Samples whose deepest loop found is still inside s (their count is only a lower bound);
     /// the mean is reported only when this is 0, since leaving them out would bias it down.
     pub truncated: u64,
@@ -200,7 +222,6 @@ pub fn summarise(run: &RadiiRun) -> Result<RadiiSummary> {
     let mut levels = Vec::new();
     let mut nesting = Vec::new();
     let mean_exact = law.mean_t();
-    let second = law.var_t() + mean_exact * mean_exact;
     for j in 0..s.points.len() {
         for k in 1..=s.explore.levels {
             let mut inc = Vec::new();
@@ -231,6 +252,23 @@ pub fn summarise(run: &RadiiRun) -> Result<RadiiSummary> {
                     }
                 })
                 .collect();
+            let ks = if inc.len() >= 2 {
+                ks_test(&inc, |t| law.cdf(t)).ok()
+            } else {
+                None
+            };
+            let tail = if inc.len() >= 50 {
+                choose_tail_threshold(&inc, &DEFAULT_TAIL_LEVELS)
+                    .ok()
+                    .map(|c| TailRow {
+                        exact_rate_at_threshold: law.exponential_tail_rate(c.fit.threshold).ok(),
+                        fit: c.fit,
+                        threshold_stable: c.stable,
+                        lambda_star: law.lambda_star(),
+                    })
+            } else {
+                None
+            };
             levels.push(LevelRow {
                 point: j,
                 level: k,
@@ -242,6 +280,8 @@ pub fn summarise(run: &RadiiRun) -> Result<RadiiSummary> {
                 variance: m.variance(),
                 variance_exact: law.var_t(),
                 moments,
+                ks,
+                tail,
             });
         }
         for &sv in &s.nesting_at {
@@ -256,12 +296,16 @@ pub fn summarise(run: &RadiiRun) -> Result<RadiiSummary> {
                     c.push(n as f64);
                 }
             }
+            let exact = law.nesting_count_mean_var(sv)?;
+            let ok = truncated == 0 && c.n > 1;
             nesting.push(NestingRow {
                 point: j,
                 s: sv,
-                mean: (truncated == 0).then(|| c.mean()),
-                mean_se: (truncated == 0).then(|| c.std_error()),
-                predicted: sv / mean_exact + second / (2.0 * mean_exact * mean_exact) - 1.0,
+                mean: ok.then(|| c.mean()),
+                mean_se: ok.then(|| c.std_error()),
+                predicted: exact.mean,
+                predicted_sd: exact.variance.max(0.0).sqrt(),
+                deviation_sigma: ok.then(|| (c.mean() - exact.mean) / c.std_error()),
                 truncated,
             });
         }
@@ -329,4 +373,73 @@ pub fn loops_csv(run: &RadiiRun) -> String {
         }
     }
     out
+}
+
+/// A figure of the level-1 law at every point: histograms of T against the exact density, and
+/// E[CR^λ] on a λ-grid from −0.45λ* to 3 against the exact curve (Schramm, Sheffield & Wilson,
+/// Commun. Math. Phys. 2009).
+///
+/// Errors: [`Error::InvalidParameter`] if κ is outside (8/3, 8).
+pub fn law_figure(run: &RadiiRun) -> Result<crate::plot::LawFigure> {
+    let s = &run.settings;
+    let law = CleLaw::new(s.kappa)?;
+    let mut samples = Vec::new();
+    let mut moments = Vec::new();
+    let grid: Vec<f64> = (0..12)
+        .map(|k| -0.45 * law.lambda_star() + (3.0 + 0.45 * law.lambda_star()) * k as f64 / 11.0)
+        .collect();
+    for (j, p) in s.points.iter().enumerate() {
+        let t: Vec<f64> = run
+            .records
+            .iter()
+            .filter_map(|row| row[j].times().first().copied())
+            .collect();
+        let m = grid
+            .iter()
+            .map(|&l| {
+                let mm: Moments = t.iter().map(|x| (-l * x).exp()).collect();
+                (l, mm.mean(), mm.std_error())
+            })
+            .collect();
+        let label = format!("point {j} ({}, {})", p[0], p[1]);
+        samples.push((label.clone(), t));
+        moments.push((label, m));
+    }
+    let t_max = samples
+        .iter()
+        .flat_map(|(_, v)| v.iter().copied())
+        .fold(1.0, f64::max);
+    let density = (0..=400)
+        .map(|k| {
+            let t = t_max * k as f64 / 400.0;
+            (t, law.density(t))
+        })
+        .collect();
+    let exact_moments = (0..=200)
+        .map(|k| {
+            let l = grid[0] + (grid[11] - grid[0]) * k as f64 / 200.0;
+            (l, law.cr_moment(l).unwrap_or(f64::NAN))
+        })
+        .collect();
+    Ok(crate::plot::LawFigure {
+        title: format!(
+            "CLE_{} in the unit disk: conformal radius of the outermost loop around each point",
+            crate::audit::fmt_kappa(s.kappa)
+        ),
+        caption: vec![
+            format!(
+                "T = log(1 − |z|²) − log CR(loop interior, z); {} configurations, all points in \
+                 each; seed {}; angle step {} (radial time)",
+                s.samples, run.seed, s.explore.h_max
+            ),
+            "black: exact law of Schramm, Sheffield & Wilson (Commun. Math. Phys. 2009); \
+             right: sample means with ±2 standard errors"
+                .to_string(),
+        ],
+        samples,
+        density,
+        moments,
+        exact_moments,
+        t_label: "T".into(),
+    })
 }

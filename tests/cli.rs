@@ -296,3 +296,99 @@ fn closed_stdout_is_not_a_panic() {
     assert!(!err.contains("panicked"), "{err}");
     assert!(status.code().is_some(), "killed by a signal");
 }
+
+#[test]
+fn radii_refuses_bad_values_on_one_line() {
+    assert_usage_error(&["radii", "--kappa", "8"], &["8/3 < kappa < 8"]);
+    assert_usage_error(&["radii", "--kappa", "2.5"], &["kappa"]);
+    assert_usage_error(
+        &["radii", "--kappa", "6", "--at", "0.9,0.9"],
+        &["0.9,0.9", "unit disk"],
+    );
+    assert_usage_error(&["radii", "--kappa", "6", "--at", "0.1"], &["x,y"]);
+    assert_usage_error(
+        &["radii", "--kappa", "6", "--lambda", "-1"],
+        &["--lambda", "-1"],
+    );
+    assert_usage_error(&["radii", "--kappa", "6", "--samples", "0"], &["--samples"]);
+    assert_usage_error(
+        &["radii", "--kappa", "6", "--step", "0.5"],
+        &["--step", "0.5"],
+    );
+}
+
+#[test]
+fn radii_csv_layout_negative_points_and_thread_independence() {
+    // The documented CSV header; `--at -0.3,0.5` must parse; same bytes at 1 and 2 threads.
+    let dir = tempfile::tempdir().unwrap();
+    let mut outs = Vec::new();
+    for threads in ["1", "2"] {
+        let f = dir.path().join(format!("r{threads}.csv"));
+        let st = sleek()
+            .env("RAYON_NUM_THREADS", threads)
+            .args([
+                "radii",
+                "--kappa",
+                "6",
+                "--at",
+                "-0.3,0.5",
+                "--at",
+                "0,0",
+                "--samples",
+                "40",
+                "--levels",
+                "2",
+                "--seed",
+                "9",
+                "-q",
+                "--export-csv",
+            ])
+            .arg(&f)
+            .output()
+            .unwrap();
+        assert!(
+            st.status.success(),
+            "{}",
+            String::from_utf8_lossy(&st.stderr)
+        );
+        outs.push(std::fs::read_to_string(&f).unwrap());
+    }
+    assert_eq!(outs[0], outs[1]);
+    let mut lines = outs[0].lines();
+    assert_eq!(lines.next(), Some("sample,point,x,y,level,loop,log_cr"));
+    let rows: Vec<Vec<String>> = lines
+        .map(|l| l.split(',').map(String::from).collect())
+        .collect();
+    assert_eq!(rows.len(), 40 * 2 * 2);
+    for r in &rows {
+        assert_eq!(r.len(), 7);
+        let log_cr: f64 = r[6].parse().unwrap();
+        assert!(log_cr.is_finite() && log_cr < 0.0);
+        if r[1] == "0" {
+            assert_eq!((r[2].as_str(), r[3].as_str()), ("-0.3", "0.5"));
+        }
+    }
+}
+
+#[test]
+fn radii_json_summary_has_the_exact_values() {
+    let (code, out, err) = run(&[
+        "radii",
+        "--kappa",
+        "3",
+        "--samples",
+        "30",
+        "--seed",
+        "4",
+        "--json",
+        "-q",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["format"], "sleek/radii");
+    let row = &v["summary"]["levels"][0];
+    // E[T] at κ = 3 is 4π√3 (Schramm, Sheffield & Wilson, Commun. Math. Phys. 2009).
+    let exact = row["mean_exact"].as_f64().unwrap();
+    assert!((exact - 4.0 * std::f64::consts::PI * 3f64.sqrt()).abs() < 1e-12);
+    assert_eq!(row["n"].as_u64(), Some(30));
+}

@@ -33,8 +33,8 @@ pub struct Global {
     #[arg(long, global = true)]
     pub json: bool,
     /// Folder for the command's standard output files: trace.{csv,json,svg} for trace,
-    /// audit.{md,json} for audit, bench.json for bench, the gallery and report for the tour
-    /// (default output/); laws only prints.
+    /// radii.json for radii, audit.{md,json} for audit, bench.json (bench-cle.json with --cle)
+    /// for bench, the gallery and report for the tour (default output/); laws only prints.
     #[arg(long, global = true, value_name = "DIR")]
     pub out: Option<PathBuf>,
     /// No progress bars or notes on stderr (errors and warnings are still shown).
@@ -114,6 +114,9 @@ pub enum DomainArg {
     Disk,
     /// Strip 0 < Im z < π, from −∞ to +∞.
     Strip,
+    /// Radial SLE in the unit disk from 1 towards 0 (radial Loewner chain; --time is radial
+    /// time, the hull's conformal radius seen from 0 being e^−t; with --rho, radial SLE_κ(ρ)).
+    DiskRadial,
 }
 
 #[derive(Args, Debug)]
@@ -157,7 +160,12 @@ pub struct TraceArgs {
     /// How the trace is evaluated.
     #[arg(long, value_enum, default_value = "fast")]
     pub method: MethodArg,
-    /// Domain of the exported and plotted points (by an explicit conformal map from H).
+    /// Radial SLE_κ(ρ): the force point starts just clockwise of 1 (implies --domain
+    /// disk-radial; ρ > −2).
+    #[arg(long, value_parser = parse_finite, allow_hyphen_values = true)]
+    pub rho: Option<f64>,
+    /// Domain of the exported and plotted points (by an explicit conformal map from H), or
+    /// disk-radial for radial SLE.
     #[arg(long, value_enum, default_value = "half-plane")]
     pub domain: DomainArg,
     /// Trace a given driving function instead of Brownian motion: a text file with one sample
@@ -238,7 +246,7 @@ pub struct RadiiArgs {
     /// Marked point x,y with x² + y² < 1 (repeatable; default 0,0).
     #[arg(long, value_parser = parse_point, allow_hyphen_values = true, value_name = "X,Y")]
     pub at: Vec<(f64, f64)>,
-    /// Samples (configurations) per point.
+    /// Configurations (samples); every point is in each of them.
     #[arg(long, short = 'm', default_value = "2000", value_parser = parse_count)]
     pub samples: u64,
     /// Nested loops to find around each point.
@@ -251,13 +259,17 @@ pub struct RadiiArgs {
     /// λ for E[CR^λ] (repeatable; each > −λ*; default 0.5, 1, 2 and −λ*/4).
     #[arg(long, value_parser = parse_finite, allow_hyphen_values = true, value_name = "L")]
     pub lambda: Vec<f64>,
-    /// s = log(1/ε) for the nesting counts N(s) = #{k : T_k ≤ s} (repeatable; default 5, 10,
-    /// 20; a count needs enough --levels to be exact, and the output says when it is not).
+    /// s = log(1/ε) for the nesting counts N(s) = #{k : T_k ≤ s} (repeatable; default 2.5 and
+    /// 5; a count needs enough --levels to be exact, and the output says when it is not).
     #[arg(long, value_parser = parse_positive, value_name = "S")]
     pub nesting_at: Vec<f64>,
     /// Write every loop as CSV: sample,point,x,y,level,loop,log_cr.
     #[arg(long, value_name = "FILE")]
     pub export_csv: Option<PathBuf>,
+    /// Draw the level-1 law at each point against the exact one (.svg or .png): histograms of T
+    /// beside the exact density, and E[CR^λ] beside the exact curve.
+    #[arg(long, value_name = "FILE")]
+    pub plot: Option<PathBuf>,
 }
 
 fn parse_f64(s: &str) -> Result<f64, String> {

@@ -95,7 +95,10 @@ pub fn run(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
 fn run_cle(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
     let kappas = [3.0, 4.0, 16.0 / 3.0, 6.0];
     let seed = g.seed.unwrap_or(1);
-    note(g, "timing the CLE exploration (one level per run, angle step 0.01)");
+    note(
+        g,
+        "timing the CLE exploration (one level per run, angle step 0.01)",
+    );
     let rows = bench::run_cle(&kappas, a.cle_samples.min(1_000_000), seed)?;
     let rec = serde_json::json!({
         "format": "sleek/bench-cle",

@@ -7,6 +7,7 @@ mod audit_cmd;
 mod bench_cmd;
 mod common;
 mod laws_cmd;
+mod radial_trace;
 mod radii_cmd;
 mod tour;
 mod trace_cmd;

@@ -56,8 +56,17 @@ pub fn run(g: &Global, a: &RadiiArgs) -> Result<(), Failure> {
     } else {
         a.lambda.clone()
     };
+    for &l in &lambdas {
+        if l <= -law.lambda_star() {
+            return Err(Failure::Usage(format!(
+                "invalid value '{l}' for '--lambda <L>': must be > -λ* = {:.6} (E[CR^λ] is \
+                 infinite below)",
+                -law.lambda_star()
+            )));
+        }
+    }
     let nesting_at = if a.nesting_at.is_empty() {
-        vec![5.0, 10.0, 20.0]
+        vec![2.5, 5.0]
     } else {
         a.nesting_at.clone()
     };
@@ -92,6 +101,10 @@ pub fn run(g: &Global, a: &RadiiArgs) -> Result<(), Failure> {
              missing levels are left out of the statistics",
             explore.max_time
         ));
+    }
+    if let Some(path) = &a.plot {
+        radii::law_figure(&run)?.draw(path)?;
+        common::note(g, &format!("wrote {}", path.display()));
     }
     if let Some(path) = &a.export_csv {
         common::write_file(path, radii::loops_csv(&run).as_bytes())?;
@@ -167,6 +180,45 @@ fn print_table(r: &RadiiRecord, points: &[[f64; 2]]) -> Result<(), Failure> {
             );
         }
         out!(
+            "  {:>5} {:>8} {:>9} {:>28} {:>12} {:>10}",
+            "level",
+            "KS D",
+            "p-value",
+            "tail rate (95% CI)",
+            "exact at t₀",
+            "λ*"
+        );
+        for row in s.levels.iter().filter(|x| x.point == j) {
+            let (d, p) = row
+                .ks
+                .map(|k| (format!("{:.4}", k.statistic), format!("{:.3}", k.p_value)))
+                .unwrap_or_else(|| ("—".into(), "—".into()));
+            let (fit, exact) = match &row.tail {
+                Some(t) => (
+                    format!(
+                        "{:.4} ({:.4}, {:.4}){}",
+                        t.fit.rate,
+                        t.fit.ci_low,
+                        t.fit.ci_high,
+                        if t.threshold_stable { "" } else { "?" }
+                    ),
+                    t.exact_rate_at_threshold
+                        .map(|r| format!("{r:.4}"))
+                        .unwrap_or_else(|| "—".into()),
+                ),
+                None => ("—".into(), "—".into()),
+            };
+            out!(
+                "  {:>5} {:>8} {:>9} {:>28} {:>12} {:>10.4}",
+                row.level,
+                d,
+                p,
+                fit,
+                exact,
+                s.lambda_star
+            );
+        }
+        out!(
             "  {:>5} {:>8} {:>24} {:>11} {:>7}",
             "level",
             "λ",
@@ -196,11 +248,12 @@ fn print_table(r: &RadiiRecord, points: &[[f64; 2]]) -> Result<(), Failure> {
         for n in s.nesting.iter().filter(|x| x.point == j) {
             match (n.mean, n.mean_se) {
                 (Some(m), Some(se)) => out!(
-                    "  {:>8.2} {:>14.4} ± {:<6.4} {:>10.4}",
+                    "  {:>8.2} {:>14.4} ± {:<6.4} {:>10.4} {:>7.2}",
                     n.s,
                     m,
                     se,
-                    n.predicted
+                    n.predicted,
+                    n.deviation_sigma.unwrap_or(f64::NAN)
                 ),
                 _ => out!(
                     "  {:>8.2} {:>23} {:>10.4}  ({} samples found all {} levels inside s; raise \
@@ -239,7 +292,14 @@ fn print_table(r: &RadiiRecord, points: &[[f64; 2]]) -> Result<(), Failure> {
         }
     }
     out!("");
-    out!("* renewal: s/E[T] + E[T²]/(2E[T]²) − 1, the large-s expansion of the mean count");
+    out!(
+        "* exact: the renewal function of the Schramm–Sheffield–Wilson law, N(s) = #{{k : T_k ≤ s}} \
+         with s = log(1/ε) relative to 1 − |z|² (its slope 1/E[T] is the Miller–Watson–Wilson rate)"
+    );
+    out!(
+        "tail: exponential fit of ΔT − t₀ above an upper quantile t₀ (? = successive thresholds \
+         disagreed); it estimates the exact rate at t₀, which rises to λ* as t₀ grows"
+    );
     for n in &r.notes {
         out!("note: {n}");
     }

@@ -1,4 +1,5 @@
-//! The built-in tour (`sleek` with no subcommand): a small gallery of chordal SLE_κ curves and a
+//! The built-in tour (`sleek` with no subcommand): a small gallery of chordal SLE_κ curves, CLE
+//! conformal-radius panels and a
 //! short audit report, written to `output/` (or --out).
 
 use super::args::{DomainArg, Global, MethodArg, StepArg, TraceArgs};
@@ -133,6 +134,7 @@ pub fn run(g: &Global) -> Result<(), Failure> {
             step: StepArg::Tilted,
             method: MethodArg::Fast,
             domain: sc.domain,
+            rho: None,
             driving: None,
             export_csv: None,
             export_json: None,
@@ -160,6 +162,34 @@ pub fn run(g: &Global) -> Result<(), Failure> {
                 sc.name,
                 start.elapsed().as_secs_f64()
             ),
+        );
+    }
+    // CLE conformal radii at three points of one configuration, against the exact law.
+    for (kappa, name) in [(3.0, "cle-radii-kappa-3"), (6.0, "cle-radii-kappa-6")] {
+        let settings = sleek::radii::RadiiSettings {
+            kappa,
+            points: sleek::audit::CLE_POINTS
+                .iter()
+                .map(|&(x, y)| [x, y])
+                .collect(),
+            samples: 2000,
+            explore: sleek::cle::ExploreSettings::defaults(kappa, 1),
+            lambdas: vec![0.5, 1.0, 2.0],
+            nesting_at: vec![],
+        };
+        let run = sleek::radii::run(&settings, seed, &|| {})?;
+        let fig = sleek::radii::law_figure(&run)?;
+        for ext in ["svg", "png"] {
+            let path = out.join("gallery").join(format!("{name}.{ext}"));
+            fig.draw(&path)?;
+            written.push(path.display().to_string());
+        }
+        let csv = out.join("gallery").join(format!("{name}.csv"));
+        super::common::write_file(&csv, sleek::radii::loops_csv(&run).as_bytes())?;
+        written.push(csv.display().to_string());
+        note(
+            &g,
+            &format!("{name} ({:.1} s)", start.elapsed().as_secs_f64()),
         );
     }
     let settings = AuditSettings::quick(seed);
