@@ -157,6 +157,78 @@ fn ssw_law_at_three_marked_points_kappa_6() {
 }
 
 #[test]
+fn ssw_law_at_three_marked_points_kappa_4() {
+    check_joint(4.0, 20261208, 1500);
+}
+
+#[test]
+fn ssw_law_at_three_marked_points_kappa_16_3() {
+    check_joint(16.0 / 3.0, 20261209, 1500);
+}
+
+#[test]
+fn nesting_counts_follow_the_renewal_function() {
+    // Miller, Watson & Wilson (Ann. Probab. 2016): the nested loops around a point form a
+    // renewal process with the Schramm–Sheffield–Wilson increments, so N(s) = #{k : T_k ≤ s}
+    // has mean U(s) (→ s/E[T]); exact U(s) and Var N(s) from `CleLaw::nesting_count_mean_var`.
+    // κ = 6, s = 20, 8 levels (P(T_8 ≤ 20) is negligible: the test asserts no truncation).
+    let kappa = 6.0;
+    let law = CleLaw::new(kappa).unwrap();
+    let ex = CleExplorer::new(
+        kappa,
+        &[Complex64::new(0.0, 0.0)],
+        ExploreSettings::defaults(kappa, 8),
+    )
+    .unwrap();
+    let s = 20.0;
+    let n = 1500u64;
+    let counts: Vec<f64> = (0..n)
+        .into_par_iter()
+        .map(|i| {
+            let t = ex.sample(20261210, i).points[0].times();
+            assert_eq!(t.len(), 8);
+            assert!(t[7] > s, "count truncated at 8 levels");
+            t.iter().filter(|&&x| x <= s).count() as f64
+        })
+        .collect();
+    let exact = law.nesting_count_mean_var(s).unwrap();
+    let m = counts.iter().sum::<f64>() / n as f64;
+    let se = (exact.variance / n as f64).sqrt();
+    assert!(
+        (m - exact.mean).abs() < 4.0 * se,
+        "E[N(20)] = {m} vs {} (σ = {se})",
+        exact.mean
+    );
+}
+
+#[test]
+fn tail_fit_of_simulated_radii_brackets_the_exact_rate() {
+    // The exponential rate of T − t₀ | T > t₀ tends to λ* = 1 − 2/κ − 3κ/32 (Schramm, Sheffield
+    // & Wilson 2009); at a finite threshold the fit estimates `exponential_tail_rate(t₀)`.
+    // Tolerance 4 standard errors of the fitted rate (rate/√n_above).
+    use sleek::stats::{choose_tail_threshold, DEFAULT_TAIL_LEVELS};
+    let kappa = 6.0;
+    let law = CleLaw::new(kappa).unwrap();
+    let ex = CleExplorer::new(
+        kappa,
+        &[Complex64::new(0.0, 0.0)],
+        ExploreSettings::defaults(kappa, 1),
+    )
+    .unwrap();
+    let t = increments(&ex, 20261211, 4000, 1);
+    let c = choose_tail_threshold(&t, &DEFAULT_TAIL_LEVELS).unwrap();
+    let exact = law.exponential_tail_rate(c.fit.threshold).unwrap();
+    assert!(
+        (c.fit.rate - exact).abs() < 4.0 * c.fit.se,
+        "rate {} ± {} vs {exact} (λ* = {}) above t₀ = {}",
+        c.fit.rate,
+        c.fit.se,
+        law.lambda_star(),
+        c.fit.threshold
+    );
+}
+
+#[test]
 fn loop_radii_are_carried_in_disk_coordinates() {
     // Bookkeeping (common practice: conformal invariance of the exploration): one point at
     // z ≠ 0 is explored in its own frame, so its normalised times equal those of the target 0
