@@ -50,6 +50,20 @@ pub fn write_file(path: &Path, bytes: &[u8]) -> Result<(), Failure> {
         .map_err(|e| Failure::Runtime(format!("cannot write {}: {e}", path.display())))
 }
 
+/// Refuse a plot file name that does not end in .svg or .png, before any work is done.
+pub fn check_plot_path(p: Option<&Path>) -> Result<(), Failure> {
+    if let Some(p) = p {
+        let ext = p.extension().map(|e| e.to_string_lossy().to_lowercase());
+        if !matches!(ext.as_deref(), Some("svg") | Some("png")) {
+            return Err(Failure::Usage(format!(
+                "--plot {}: the file name must end in .svg or .png",
+                p.display()
+            )));
+        }
+    }
+    Ok(())
+}
+
 /// `dir/name` when an output folder is given.
 pub fn in_out(g: &Global, name: &str) -> Option<PathBuf> {
     g.out.as_ref().map(|d| d.join(name))

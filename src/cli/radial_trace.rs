@@ -20,15 +20,7 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
              take --points (equal radial-time steps)",
         );
     }
-    if let Some(p) = &a.plot {
-        let ext = p.extension().map(|e| e.to_string_lossy().to_lowercase());
-        if !matches!(ext.as_deref(), Some("svg") | Some("png")) {
-            return usage(&format!(
-                "--plot {}: the file name must end in .svg or .png",
-                p.display()
-            ));
-        }
-    }
+    common::check_plot_path(a.plot.as_deref())?;
     let Some(kappa) = a.kappa else {
         return usage("radial SLE needs --kappa");
     };

@@ -44,9 +44,28 @@ pub fn run(g: &Global, a: &RadiiArgs) -> Result<(), Failure> {
             a.levels
         )));
     }
+    common::check_plot_path(a.plot.as_deref())?;
+    // Memory of the kept loop records: about 40 bytes per loop (radius, id, level) per point.
+    let bytes = a.samples as f64 * points.len() as f64 * a.levels as f64 * 40.0;
+    if bytes > 8.0 * (1u64 << 30) as f64 {
+        return Err(Failure::Usage(format!(
+            "--samples {} × {} points × --levels {} would keep about {:.0} GiB of loop records; \
+             the limit is 8 GiB (split the run with different --seed values)",
+            a.samples,
+            points.len(),
+            a.levels,
+            bytes / (1u64 << 30) as f64
+        )));
+    }
+    if a.step < 1e-6 {
+        return Err(Failure::Usage(format!(
+            "invalid value '{:?}' for '--step <STEP>': must be in [1e-6, 0.1]",
+            a.step
+        )));
+    }
     if a.step > 0.1 {
         return Err(Failure::Usage(format!(
-            "invalid value '{}' for '--step <STEP>': must be in (0, 0.1] (the scheme is checked \
+            "invalid value '{:?}' for '--step <STEP>': must be in [1e-6, 0.1] (the scheme is checked \
              up to 0.04)",
             a.step
         )));
@@ -59,7 +78,7 @@ pub fn run(g: &Global, a: &RadiiArgs) -> Result<(), Failure> {
     for &l in &lambdas {
         if l <= -law.lambda_star() {
             return Err(Failure::Usage(format!(
-                "invalid value '{l}' for '--lambda <L>': must be > -λ* = {:.6} (E[CR^λ] is \
+                "invalid value '{l:?}' for '--lambda <L>': must be > -λ* = {:.6} (E[CR^λ] is \
                  infinite below)",
                 -law.lambda_star()
             )));

@@ -305,15 +305,7 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
     if a.domain == DomainArg::DiskRadial || a.rho.is_some() {
         return super::radial_trace::run(g, a);
     }
-    if let Some(p) = &a.plot {
-        let ext = p.extension().map(|e| e.to_string_lossy().to_lowercase());
-        if !matches!(ext.as_deref(), Some("svg") | Some("png")) {
-            return Err(Failure::Usage(format!(
-                "--plot {}: the file name must end in .svg or .png",
-                p.display()
-            )));
-        }
-    }
+    super::common::check_plot_path(a.plot.as_deref())?;
     let run = sample(g, a)?;
     let unmet: Vec<&ChordalCurve> = run.curves.iter().filter(|c| !c.target_met).collect();
     if !unmet.is_empty() {
