@@ -589,7 +589,7 @@ impl CleExplorer {
             driver: 0,
             rng: rng::substream(seed, Tag::Cle, index, base),
         };
-        let k = root.fastest_from_boundary();
+        let k = root.fastest_any();
         root.renormalise(k);
         let mut stack = vec![root];
         while let Some(mut br) = stack.pop() {
@@ -865,10 +865,5 @@ impl Branch {
             }
         }
         best.0
-    }
-
-    /// At the start (tip and force point at 1) the driver is the point seen best from 1.
-    fn fastest_from_boundary(&self) -> usize {
-        self.fastest_any()
     }
 }

@@ -178,8 +178,11 @@ impl RadialChain {
 }
 
 /// Radial SLE_κ in the unit disk from 1 towards 0, or radial SLE_κ(ρ) with its force point
-/// immediately clockwise of 1, on `steps` equal steps of radial time up to `time`
-/// (DESIGN §2, §5): `t = −log CR(D_t, 0)`.
+/// immediately clockwise of 1, on `steps` steps of radial time up to `time` (DESIGN §2, §5):
+/// `t = −log CR(D_t, 0)`. The grid is uniform in `e^{−2t}` (`t_k = −½ log(1 − k(1 − e^{−2T})/N)`),
+/// so that `√Δt_k · e^{−t_k}` — the size of a step's slit seen at the scale of the remaining
+/// domain near 0 — is the same for every step: equal steps would be coarse near the start and
+/// needlessly fine near the end.
 ///
 /// Without ρ the driving angle is ξ = √κ B (piecewise constant: the value at each step's end).
 /// With ρ the angle θ = ξ − η is stepped by [`crate::cle::AngleProcess::radial_rho`] and the
@@ -249,7 +252,10 @@ impl RadialSle {
     pub fn sample(&self, seed: u64, index: u64) -> RadialCurve {
         use rand_distr::{Distribution, StandardNormal};
         let mut g = crate::rng::stream(seed, crate::rng::Tag::Driving, index);
-        let h = self.time / self.steps as f64;
+        let a = -(-2.0 * self.time).exp_m1() / self.steps as f64;
+        let grid: Vec<f64> = (0..=self.steps)
+            .map(|k| -0.5 * (-(a * k as f64)).ln_1p())
+            .collect();
         let mut chain = RadialChain::new();
         let mut times = vec![0.0];
         let mut driving = Vec::with_capacity(self.steps);
@@ -259,11 +265,12 @@ impl RadialSle {
             None => {
                 let mut xi = 0.0;
                 for k in 0..self.steps {
+                    let h = grid[k + 1] - grid[k];
                     let z: f64 = StandardNormal.sample(&mut g);
                     xi += (self.kappa * h).sqrt() * z;
                     chain.push(RadialStep::new(xi, h));
                     driving.push(xi);
-                    times.push((k + 1) as f64 * h);
+                    times.push(grid[k + 1]);
                 }
             }
             Some(rho) => {
@@ -271,9 +278,10 @@ impl RadialSle {
                     .expect("validated in new");
                 let (mut theta, mut eta) = (0.0, 0.0);
                 for k in 0..self.steps {
+                    let h = grid[k + 1] - grid[k];
                     let st = process.step(theta, h, &mut g);
                     if st.visit == crate::cle::EndVisit::Full {
-                        stopped_at = Some(k as f64 * h);
+                        stopped_at = Some(grid[k]);
                         break;
                     }
                     let xi = eta + st.theta;
@@ -285,7 +293,7 @@ impl RadialSle {
                     driving.push(xi);
                     force.push(eta);
                     theta = st.theta;
-                    times.push((k + 1) as f64 * h);
+                    times.push(grid[k + 1]);
                 }
             }
         }

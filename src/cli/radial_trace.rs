@@ -17,7 +17,7 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
     if a.spacing.is_some() || a.spacing_rel.is_some() || a.inner_radius.is_some() {
         return usage(
             "--spacing, --spacing-rel and --inner-radius are for chordal curves; radial curves \
-             take --points (equal radial-time steps)",
+             take --points (steps on a grid uniform in e^-2t)",
         );
     }
     common::check_plot_path(a.plot.as_deref())?;
@@ -112,7 +112,10 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
                 if curves.len() == 1 { "" } else { "s" },
                 (-time).exp()
             ),
-            format!("{steps} equal radial-time steps (radial slits, piecewise-constant driving)"),
+            format!(
+                "{steps} radial slits (piecewise-constant driving) on a grid uniform in e^-2t; \
+                 points are not refined where the tip runs far in little radial time"
+            ),
         ];
         if stopped > 0 {
             caption.push(format!(
