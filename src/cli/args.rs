@@ -6,8 +6,9 @@ use std::path::PathBuf;
 
 /// sleek — Schramm–Loewner evolution by the zipper, with exact laws beside every estimate.
 ///
-/// Without a subcommand, runs the built-in tour: a gallery of chordal SLE_κ curves and a short
-/// audit against published laws, written to `output/` (or --out).
+/// Without a subcommand, runs the built-in tour: a gallery of chordal SLE_κ curves, CLE_κ
+/// conformal-radius panels and a short audit against published laws, written to `output/` (or
+/// --out).
 #[derive(Parser, Debug)]
 #[command(
     name = "sleek",
@@ -44,7 +45,8 @@ pub struct Global {
 
 #[derive(Subcommand, Debug)]
 pub enum Command {
-    /// Sample chordal SLE_κ curves (or the trace of a given driving function), export and plot.
+    /// Sample chordal SLE_κ curves (or the trace of a given driving function), or radial SLE_κ
+    /// and SLE_κ(ρ) with --domain disk-radial; export and plot.
     ///
     /// The Loewner chain is dg/dt = 2/(g − W) in the upper half-plane, W = √κ B, run to capacity
     /// time --time (half-plane capacity 2t). Curves are made of explicit slit maps: tilted
@@ -71,7 +73,8 @@ pub enum Command {
     /// 10⁴ samples × 3 points × 2 levels at κ = 6 in about 30 s.
     Radii(RadiiArgs),
     /// Time the direct and fast trace methods in one run on this machine: fitted scaling
-    /// exponents, speed-ups, fast-vs-direct agreement and peak memory (about a minute).
+    /// exponents, speed-ups, fast-vs-direct agreement and peak memory (about a minute); with
+    /// --cle, the CLE exploration instead.
     Bench(BenchArgs),
 }
 

@@ -30,6 +30,10 @@ struct CleSummary {
     mean_t: f64,
     var_t: f64,
     cr_moments: Vec<Moment>,
+    quantiles: Vec<(f64, f64)>,
+    nesting_rate: f64,
+    nesting_source: &'static str,
+    nesting_rate_function: Vec<(f64, f64)>,
 }
 
 #[derive(Serialize)]
@@ -110,6 +114,19 @@ pub fn run(g: &Global, a: &LawsArgs) -> Result<(), Failure> {
                     mean_t: law.mean_t(),
                     var_t: law.var_t(),
                     cr_moments,
+                    quantiles: [0.1, 0.5, 0.9, 0.99]
+                        .iter()
+                        .filter_map(|&p| law.quantile(p).ok().map(|q| (p, q)))
+                        .collect(),
+                    nesting_rate: law.nesting_rate(),
+                    nesting_source: "Miller, Watson & Wilson, Ann. Probab. 2016",
+                    nesting_rate_function: [0.5, 1.0, 2.0]
+                        .iter()
+                        .filter_map(|&f| {
+                            let nu = f * law.nesting_rate();
+                            law.nesting_rate_function(nu).ok().map(|g| (nu, g))
+                        })
+                        .collect(),
                 }),
                 None,
             )
@@ -177,6 +194,21 @@ pub fn run(g: &Global, a: &LawsArgs) -> Result<(), Failure> {
             );
             out!("  {:<34} {:.8}", "E[T]", c.mean_t);
             out!("  {:<34} {:.8}", "Var[T]", c.var_t);
+            for (p, q) in &c.quantiles {
+                out!("  {:<34} {q:.8}", format!("quantile of T at {p}"));
+            }
+            out!(
+                "  {:<34} {:.8}   {}",
+                "loops per unit log(1/ε): 1/E[T]",
+                c.nesting_rate,
+                c.nesting_source
+            );
+            for (nu, gam) in &c.nesting_rate_function {
+                out!(
+                    "  {:<34} {gam:.8}   (points with nesting ν have dimension 2 − γ)",
+                    format!("γ(ν), ν = {nu:.6}")
+                );
+            }
             for m in &c.cr_moments {
                 let label = format!("E[CR^λ], λ = {}", m.lambda);
                 match (m.value, &m.note) {
