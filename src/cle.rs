@@ -392,6 +392,8 @@ struct Branch {
     pts: Vec<Tracked>,
     driver: usize,
     rng: ChaCha8Rng,
+    /// The points before the current step (reused buffer, so the hot loop does not allocate).
+    before: Vec<Tracked>,
 }
 
 /// Harmonic measure, seen from `w`, of the boundary arc from the force point (angle 0) to the
@@ -588,6 +590,7 @@ impl CleExplorer {
                 .collect(),
             driver: 0,
             rng: rng::substream(seed, Tag::Cle, index, base),
+            before: Vec::new(),
         };
         let k = root.fastest_any();
         root.renormalise(k);
@@ -683,7 +686,8 @@ impl CleExplorer {
                 h = s.h_min;
                 diag.floor_steps += 1;
             }
-            let before = br.pts.clone();
+            br.before.clear();
+            br.before.extend_from_slice(&br.pts);
             let theta_before = br.theta;
             let st = self.process.step(br.theta, h, &mut br.rng);
             let step = RadialStep::new(st.theta, h);
@@ -743,7 +747,7 @@ impl CleExplorer {
             }
             if !broken.is_empty() {
                 diag.pinched += broken.len() as u64;
-                let pts: Vec<Tracked> = broken.iter().map(|&j| before[j]).collect();
+                let pts: Vec<Tracked> = broken.iter().map(|&j| br.before[j]).collect();
                 for g in group_connected(pts, s.pinch) {
                     spawned.push(self.split(theta_before, g, seed, index, next_branch));
                 }
@@ -815,6 +819,7 @@ impl CleExplorer {
             pts,
             driver: 0,
             rng: rng::substream(seed, Tag::Cle, index, id),
+            before: Vec::new(),
         };
         let k = b.fastest_any();
         b.renormalise(k);
