@@ -35,8 +35,10 @@
 //!   ≈ 1) is inside the same loop, gets the same loop identifier, and continues with the
 //!   driver in the loop's interior, where θ restarts at 0. The other points leave.
 //! * **A point is pinched off**: `1 − |w|` in the driver's frame is the pseudo-hyperbolic
-//!   closeness of the two points — symmetric in them — and it tends to 0 exactly when the trace
-//!   disconnects them. A point with `1 − |w| < pinch` leaves on its own branch with the state
+//!   closeness of the two points — symmetric in them. It tends to 0 when the trace disconnects
+//!   them, and is also small when the trace merely passes very close to one of them, so a split
+//!   can come early: each point's law is unaffected (it continues towards itself from the state
+//!   it has), but the two then share no later loop. A point with `1 − |w| < pinch` leaves on its own branch with the state
 //!   it has, *without* a loop being recorded: a disconnection is a loop closure for the point
 //!   only if its own θ is at 2π, and then the exact scheme closes that loop on the branch's
 //!   first step (bridge probability ≈ 1); otherwise the point simply continues (for
@@ -249,24 +251,6 @@ impl AngleProcess {
             }
         }
     }
-
-    /// The first time θ, started at 0, visits ±2π — T = −log CR of the outermost loop around
-    /// the target, whose law is that of Schramm, Sheffield & Wilson (Commun. Math. Phys. 2009) —
-    /// with steps of length `h`; `None` if it exceeds `max_time`. The hitting time is the end of
-    /// the step in which the visit was sampled (an O(h) bias per level).
-    pub fn hitting_time<R: Rng + ?Sized>(&self, h: f64, max_time: f64, rng: &mut R) -> Option<f64> {
-        let mut theta = 0.0;
-        let mut t = 0.0;
-        while t < max_time {
-            let s = self.step(theta, h, rng);
-            t += h;
-            if s.visit == EndVisit::Full {
-                return Some(t);
-            }
-            theta = s.theta;
-        }
-        None
-    }
 }
 
 /// Numerical settings of the exploration.
@@ -356,7 +340,8 @@ pub struct SampleDiagnostics {
     pub switches: u64,
     /// Branches of the exploration tree (1 + number of separations).
     pub branches: u64,
-    /// Points that left a branch because they were pinched off from its driver.
+    /// Points that left a branch: pinched off from its driver, or outside a loop that closed
+    /// around it.
     pub pinched: u64,
 }
 
@@ -479,7 +464,8 @@ pub struct CleExplorer {
     points: Vec<Complex64>,
 }
 
-/// Hysteresis for changing the driver: switch when another clock is this much faster.
+/// Hysteresis for changing the driver: switch when another point's Poisson kernel at the tip is
+/// this much larger (its clock, which runs at the kernel's square, 2.25 times faster).
 const SWITCH_RATIO: f64 = 1.5;
 
 impl CleExplorer {
@@ -712,8 +698,9 @@ impl CleExplorer {
             diag.steps += 1;
 
             // Pinched points: 1 − |w| is the pseudo-hyperbolic closeness of a point to the
-            // driver (symmetric in the two), which tends to 0 exactly when the trace
-            // disconnects them. Such points leave on their own branch with the state they have;
+            // driver (symmetric in the two); it tends to 0 when the trace disconnects them (and
+            // is small when the trace passes very close, where an early split is harmless for
+            // each point's own law). Such points leave on their own branch with the state they have;
             // their own angle then decides, through the exact scheme, whether the region they
             // are in is a loop interior (θ ≈ 2π: the next step closes it) or not.
             let mut pinched = Vec::new();

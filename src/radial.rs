@@ -179,10 +179,7 @@ impl RadialChain {
 
 /// Radial SLE_κ in the unit disk from 1 towards 0, or radial SLE_κ(ρ) with its force point
 /// immediately clockwise of 1, on `steps` steps of radial time up to `time` (DESIGN §2, §5):
-/// `t = −log CR(D_t, 0)`. The grid is uniform in `e^{−2t}` (`t_k = −½ log(1 − k(1 − e^{−2T})/N)`),
-/// so that `√Δt_k · e^{−t_k}` — the size of a step's slit seen at the scale of the remaining
-/// domain near 0 — is the same for every step: equal steps would be coarse near the start and
-/// needlessly fine near the end.
+/// `t = −log CR(D_t, 0)`, on the grid of [`radial_grid`].
 ///
 /// Without ρ the driving angle is ξ = √κ B (piecewise constant: the value at each step's end).
 /// With ρ the angle θ = ξ − η is stepped by [`crate::cle::AngleProcess::radial_rho`] and the
@@ -192,12 +189,11 @@ impl RadialChain {
 pub struct RadialSle {
     kappa: f64,
     rho: Option<f64>,
-    time: f64,
-    steps: usize,
+    grid: Vec<f64>,
 }
 
 /// One sampled radial curve.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone)]
 pub struct RadialCurve {
     /// Sample index.
     pub index: u64,
@@ -209,8 +205,37 @@ pub struct RadialCurve {
     pub force: Vec<f64>,
     /// The trace points γ(t_k), k = 0..=n (direct composition of the inverse steps).
     pub points: Vec<Complex64>,
-    /// Radial time at which θ reached 2π, if it did (the curve stops there).
+    /// Radial time at which θ reached 2π, if it did: the end of the step in which the visit was
+    /// sampled (the curve stops before that step).
     pub stopped_at: Option<f64>,
+    /// The radial chain of the steps taken.
+    pub chain: RadialChain,
+}
+
+/// The radial-time grid of [`RadialSle`]: `t_k = F⁻¹(k/N)` with
+/// `F(t) = ½(1 − e^{−2t})/(1 − e^{−2T}) + ½ t/T`, so half the resolution is uniform in `e^{−2t}`
+/// (small steps at the start, where a step of radial time Δt draws a slit of length about 2√Δt)
+/// and half uniform in t (no step longer than 2T/N near the end). `t_0 = 0`, `t_N = T` exactly.
+pub fn radial_grid(time: f64, steps: usize) -> Vec<f64> {
+    let scale = -(-2.0 * time).exp_m1();
+    let f = |t: f64| 0.5 * (-(-2.0 * t).exp_m1()) / scale + 0.5 * t / time;
+    let mut grid = Vec::with_capacity(steps + 1);
+    grid.push(0.0);
+    for k in 1..steps {
+        let target = k as f64 / steps as f64;
+        let (mut lo, mut hi) = (0.0, time);
+        for _ in 0..80 {
+            let mid = 0.5 * (lo + hi);
+            if f(mid) < target {
+                lo = mid;
+            } else {
+                hi = mid;
+            }
+        }
+        grid.push(0.5 * (lo + hi));
+    }
+    grid.push(time);
+    grid
 }
 
 impl RadialSle {
@@ -243,28 +268,33 @@ impl RadialSle {
         Ok(RadialSle {
             kappa,
             rho,
-            time,
-            steps,
+            grid: radial_grid(time, steps),
         })
     }
 
     /// Sample `index` of a run with `seed` (a pure function of both).
     pub fn sample(&self, seed: u64, index: u64) -> RadialCurve {
+        let mut c = self.sample_driving(seed, index);
+        c.points = (0..c.times.len()).map(|k| c.chain.trace_point(k)).collect();
+        c
+    }
+
+    /// The same sample without its trace points (`points` empty): the driving angle, the force
+    /// point and the stopping time only, at O(steps) cost.
+    pub fn sample_driving(&self, seed: u64, index: u64) -> RadialCurve {
         use rand_distr::{Distribution, StandardNormal};
         let mut g = crate::rng::stream(seed, crate::rng::Tag::Driving, index);
-        let a = -(-2.0 * self.time).exp_m1() / self.steps as f64;
-        let grid: Vec<f64> = (0..=self.steps)
-            .map(|k| -0.5 * (-(a * k as f64)).ln_1p())
-            .collect();
+        let grid = &self.grid;
+        let steps = grid.len() - 1;
         let mut chain = RadialChain::new();
         let mut times = vec![0.0];
-        let mut driving = Vec::with_capacity(self.steps);
+        let mut driving = Vec::with_capacity(steps);
         let mut force = Vec::new();
         let mut stopped_at = None;
         match self.rho {
             None => {
                 let mut xi = 0.0;
-                for k in 0..self.steps {
+                for k in 0..steps {
                     let h = grid[k + 1] - grid[k];
                     let z: f64 = StandardNormal.sample(&mut g);
                     xi += (self.kappa * h).sqrt() * z;
@@ -277,11 +307,12 @@ impl RadialSle {
                 let process = crate::cle::AngleProcess::radial_rho(self.kappa, rho)
                     .expect("validated in new");
                 let (mut theta, mut eta) = (0.0, 0.0);
-                for k in 0..self.steps {
+                for k in 0..steps {
                     let h = grid[k + 1] - grid[k];
                     let st = process.step(theta, h, &mut g);
                     if st.visit == crate::cle::EndVisit::Full {
-                        stopped_at = Some(grid[k]);
+                        // The end of the step in which the visit was sampled (as for CLE loops).
+                        stopped_at = Some(grid[k + 1]);
                         break;
                     }
                     let xi = eta + st.theta;
@@ -297,15 +328,14 @@ impl RadialSle {
                 }
             }
         }
-        let n = chain.steps().len();
-        let points = (0..=n).map(|k| chain.trace_point(k)).collect();
         RadialCurve {
             index,
             times,
             driving,
             force,
-            points,
+            points: Vec::new(),
             stopped_at,
+            chain,
         }
     }
 }

@@ -96,7 +96,8 @@ fn conformal_radius_rate_is_the_squared_poisson_kernel() {
 #[test]
 fn radial_sle_traces_respect_koebe_quarter_bound() {
     // Every trace point lies on the boundary of D_t, whose conformal radius seen from 0 is
-    // e^{−t}; by Koebe's 1/4 theorem (common practice) its distance to 0 is at least e^{−t}/4,
+    // e^{−t}; by the Koebe quarter theorem (Koebe 1907, Bieberbach 1916; a classical theorem)
+    // its distance to 0 is at least e^{−t}/4,
     // and the curve stays in the closed disk. Checked for radial SLE_2 and SLE_2(ρ = 1).
     use sleek::radial::RadialSle;
     for rho in [None, Some(1.0)] {
@@ -113,9 +114,38 @@ fn radial_sle_traces_respect_koebe_quarter_bound() {
                     "{z} at t = {t}"
                 );
             }
-            assert_eq!(c, sle.sample(5, i));
+            assert_eq!(c.points, sle.sample(5, i).points);
         }
     }
     assert!(RadialSle::new(2.0, Some(-2.0), 1.0, 10).is_err());
     assert!(RadialSle::new(2.0, None, 0.0, 10).is_err());
+}
+
+#[test]
+fn radial_sle_kappa_6_minus_kappa_closes_loops_with_the_ssw_law() {
+    // Radial SLE_κ(κ − 6) from 1 towards 0 reaches θ = 2π when it closes the outermost CLE_κ loop
+    // around 0 (Sheffield, Duke Math. J. 2009), at radial time T with the law of Schramm,
+    // Sheffield & Wilson (Commun. Math. Phys. 2009). This checks the force-point bookkeeping of
+    // `RadialSle` with ρ, not only the angle process: P(T ≤ t) at t = 5 and 12 against the exact
+    // CDF, 4σ of the binomial standard error under the exact law.
+    use sleek::laws::CleLaw;
+    use sleek::radial::RadialSle;
+    for (kappa, seed) in [(6.0, 31u64), (16.0 / 3.0, 32)] {
+        let law = CleLaw::new(kappa).unwrap();
+        let sle = RadialSle::new(kappa, Some(kappa - 6.0), 50.0, 20_000).unwrap();
+        let n = 2000u64;
+        let stops: Vec<Option<f64>> = (0..n)
+            .map(|i| sle.sample_driving(seed, i).stopped_at)
+            .collect();
+        for t in [5.0, 12.0] {
+            let p = law.cdf(t);
+            let hits = stops.iter().filter(|s| s.is_some_and(|x| x <= t)).count() as f64;
+            let sigma = (p * (1.0 - p) / n as f64).sqrt();
+            let est = hits / n as f64;
+            assert!(
+                (est - p).abs() < 4.0 * sigma,
+                "kappa = {kappa}: P(T <= {t}) = {est} vs {p} (σ = {sigma})"
+            );
+        }
+    }
 }

@@ -1,6 +1,6 @@
 //! `sleek trace --domain disk-radial [--rho R]`: radial SLE_κ (or SLE_κ(ρ)) in the unit disk.
 
-use super::args::{Global, TraceArgs};
+use super::args::{DomainArg, Global, TraceArgs};
 use super::common::{self, out};
 use super::Failure;
 use rayon::prelude::*;
@@ -17,7 +17,7 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
     if a.spacing.is_some() || a.spacing_rel.is_some() || a.inner_radius.is_some() {
         return usage(
             "--spacing, --spacing-rel and --inner-radius are for chordal curves; radial curves \
-             take --points (steps on a grid uniform in e^-2t)",
+             take --points (steps of radial time, see --help)",
         );
     }
     common::check_plot_path(a.plot.as_deref())?;
@@ -38,7 +38,16 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
             a.count
         ));
     }
+    if a.rho.is_some() && !matches!(a.domain, DomainArg::DiskRadial | DomainArg::HalfPlane) {
+        return usage("--rho is for radial SLE_κ(ρ) in the disk: use it with --domain disk-radial");
+    }
     let sle = RadialSle::new(kappa, a.rho, time, steps as usize)?;
+    if kappa > 8.0 {
+        common::warn(&format!(
+            "κ = {kappa} > 8: the radial curve is space-filling; the figure shows it only at its \
+             resolution"
+        ));
+    }
     let seed = common::resolve_seed(g);
     let curves: Vec<RadialCurve> = (0..a.count)
         .into_par_iter()
@@ -113,8 +122,9 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
                 (-time).exp()
             ),
             format!(
-                "{steps} radial slits (piecewise-constant driving) on a grid uniform in e^-2t; \
-                 points are not refined where the tip runs far in little radial time"
+                "{steps} radial slits (piecewise-constant driving), half of the steps uniform in \
+                 e^-2t and half in t; points are not refined where the tip runs far in little \
+                 radial time"
             ),
         ];
         if stopped > 0 {

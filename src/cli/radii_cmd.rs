@@ -38,6 +38,17 @@ pub fn run(g: &Global, a: &RadiiArgs) -> Result<(), Failure> {
             )));
         }
     }
+    if a.samples < 2 {
+        return Err(Failure::Usage(format!(
+            "invalid value '{}' for '--samples <SAMPLES>': at least 2 (standard errors need two)",
+            a.samples
+        )));
+    }
+    if let Some(s) = a.nesting_at.iter().find(|s| **s > 1e4) {
+        return Err(Failure::Usage(format!(
+            "invalid value '{s:?}' for '--nesting-at <S>': at most 1e4"
+        )));
+    }
     if a.levels > 1000 {
         return Err(Failure::Usage(format!(
             "invalid value '{}' for '--levels <LEVELS>': at most 1000",
@@ -161,8 +172,8 @@ pub fn run(g: &Global, a: &RadiiArgs) -> Result<(), Failure> {
 fn print_table(r: &RadiiRecord, points: &[[f64; 2]]) -> Result<(), Failure> {
     let s = r.summary;
     out!(
-        "CLE_κ conformal radii, κ = {}, {} samples per point, seed {}, step {}",
-        s.kappa,
+        "CLE_κ conformal radii, κ = {}, {} configurations, seed {}, step {}",
+        sleek::audit::fmt_kappa(s.kappa),
         r.settings.samples,
         r.seed,
         r.settings.explore.h_max
@@ -254,7 +265,7 @@ fn print_table(r: &RadiiRecord, points: &[[f64; 2]]) -> Result<(), Failure> {
                     m.estimate,
                     m.std_error,
                     m.exact,
-                    m.deviation_sigma,
+                    Sigma(m.deviation_sigma),
                     if m.infinite_variance {
                         "  (λ ≤ −λ*/2: infinite variance, s.e. unreliable)"
                     } else {
@@ -272,7 +283,7 @@ fn print_table(r: &RadiiRecord, points: &[[f64; 2]]) -> Result<(), Failure> {
                     m,
                     se,
                     n.predicted,
-                    n.deviation_sigma.unwrap_or(f64::NAN)
+                    Sigma(n.deviation_sigma.unwrap_or(f64::NAN))
                 ),
                 _ => out!(
                     "  {:>8.2} {:>23} {:>10.4}  ({} samples found all {} levels inside s; raise \
@@ -323,4 +334,18 @@ fn print_table(r: &RadiiRecord, points: &[[f64; 2]]) -> Result<(), Failure> {
         out!("note: {n}");
     }
     Ok(())
+}
+
+/// A deviation in standard errors, printed as "—" when it is not finite (zero standard error).
+struct Sigma(f64);
+
+impl std::fmt::Display for Sigma {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        if self.0.is_finite() {
+            let s = format!("{:.2}", self.0);
+            f.pad(&s)
+        } else {
+            f.pad("—")
+        }
+    }
 }
