@@ -271,7 +271,8 @@ pub fn cle_checks(s: &AuditSettings, kappa: f64) -> Result<Vec<CheckRow>> {
         .map(|&(x, y)| Complex64::new(x, y))
         .collect();
     let seed = s.seed ^ 0x636c_6500 ^ kappa.to_bits();
-    let ex = CleExplorer::new(kappa, &pts, ExploreSettings::defaults(kappa, 2))?;
+    let explore = ExploreSettings::defaults(kappa, 2);
+    let ex = CleExplorer::new(kappa, &pts, explore)?;
     let n = s.cle_samples as u64;
     let samples: Vec<_> = (0..n).into_par_iter().map(|i| ex.sample(seed, i)).collect();
     let mut rows = Vec::new();
@@ -305,7 +306,11 @@ pub fn cle_checks(s: &AuditSettings, kappa: f64) -> Result<Vec<CheckRow>> {
                     exact,
                     deviation_sigma: Some(dev),
                     bias_bound: None,
-                    resolution: format!("{} configurations, angle step 0.01", t.len()),
+                    resolution: format!(
+                        "{} configurations, angle step {}",
+                        t.len(),
+                        explore.h_max
+                    ),
                     verdict: if dev.abs() <= s.sigma_limit {
                         Verdict::Pass
                     } else {

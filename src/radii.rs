@@ -222,12 +222,18 @@ pub fn summarise(run: &RadiiRun) -> Result<RadiiSummary> {
     let mut levels = Vec::new();
     let mut nesting = Vec::new();
     let mean_exact = law.mean_t();
+    // Normalised times of every record, computed once.
+    let times: Vec<Vec<Vec<f64>>> = run
+        .records
+        .iter()
+        .map(|row| row.iter().map(|r| r.times()).collect())
+        .collect();
     for j in 0..s.points.len() {
         for k in 1..=s.explore.levels {
             let mut inc = Vec::new();
             let mut censored = 0;
-            for row in &run.records {
-                let t = row[j].times();
+            for row in &times {
+                let t = &row[j];
                 if t.len() >= k {
                     inc.push(if k == 1 { t[0] } else { t[k - 1] - t[k - 2] });
                 } else {
@@ -287,10 +293,10 @@ pub fn summarise(run: &RadiiRun) -> Result<RadiiSummary> {
         for &sv in &s.nesting_at {
             let mut c = Moments::new();
             let mut truncated = 0;
-            for row in &run.records {
-                let t = row[j].times();
+            for (row, rec) in times.iter().zip(&run.records) {
+                let t = &row[j];
                 let n = t.iter().filter(|&&x| x <= sv).count();
-                if n == t.len() && (row[j].censored || t.len() == s.explore.levels) {
+                if n == t.len() && (rec[j].censored || t.len() == s.explore.levels) {
                     truncated += 1;
                 } else {
                     c.push(n as f64);
