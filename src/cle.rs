@@ -653,6 +653,32 @@ impl CleExplorer {
                     br.renormalise(k);
                 }
             }
+            if br.pts.len() == 1 {
+                // One point: no geometry to carry, only its own clock and angle (the same steps
+                // and random numbers as the general path below).
+                let st = self.process.step(br.theta, s.h_max, &mut br.rng);
+                br.pts[0].ell += s.h_max;
+                diag.steps += 1;
+                if st.visit == EndVisit::Full {
+                    let p = br.pts[0];
+                    let id = *next_loop;
+                    *next_loop += 1;
+                    let rec = &mut records[p.id];
+                    rec.loops.push(LoopAround {
+                        level: rec.loops.len() + 1,
+                        loop_id: id,
+                        log_cr: p.log_cr(),
+                    });
+                    if rec.loops.len() >= s.levels {
+                        br.pts.clear();
+                        return spawned;
+                    }
+                    br.theta = 0.0;
+                } else {
+                    br.theta = st.theta;
+                }
+                continue;
+            }
             let (k, pk) = br.fastest();
             if k != br.driver && pk > SWITCH_RATIO {
                 br.renormalise(k);
