@@ -740,42 +740,15 @@ impl CleLaw {
                 (c.ln() - target, f / c)
             }
         };
-        let mut lo = 0.0_f64;
-        let mut hi = self.mean_t();
-        while g(hi).0 < 0.0 {
-            lo = hi;
-            hi *= 2.0;
-            if !hi.is_finite() {
-                return Err(Error::Numerical(format!(
-                    "CLE quantile: no bracket found for log-probability {target}"
-                )));
-            }
+        match crate::special::increasing_root(|t| Ok(g(t)), 0.0, self.mean_t())? {
+            Ok(t) => Ok(t),
+            Err(crate::special::RootFailure::NoBracket) => Err(Error::Numerical(format!(
+                "CLE quantile: no bracket found for log-probability {target}"
+            ))),
+            Err(crate::special::RootFailure::NoConvergence) => Err(Error::Numerical(format!(
+                "CLE quantile: no convergence for log-probability {target}"
+            ))),
         }
-        let mut t = 0.5 * (lo + hi);
-        for _ in 0..400 {
-            let (value, slope) = g(t);
-            if value == 0.0 {
-                return Ok(t);
-            }
-            if value < 0.0 {
-                lo = t;
-            } else {
-                hi = t;
-            }
-            let newton = t - value / slope;
-            let next = if newton.is_finite() && newton > lo && newton < hi {
-                newton
-            } else {
-                0.5 * (lo + hi)
-            };
-            if (next - t).abs() <= 1e-15 * t || hi - lo <= 4.0 * f64::EPSILON * hi {
-                return Ok(next);
-            }
-            t = next;
-        }
-        Err(Error::Numerical(format!(
-            "CLE quantile: no convergence for log-probability {target}"
-        )))
     }
 
     /// 1/E[T − t₀ | T > t₀], the value to which the maximum-likelihood rate of an exponential
@@ -1173,37 +1146,12 @@ impl CleLaw {
 
 /// Root of an increasing function on [lo, hi] (h returns value and derivative) by Newton's
 /// method from `start`, falling back on bisection whenever a step leaves the bracket.
-fn safeguarded_newton(
-    h: impl Fn(f64) -> (f64, f64),
-    mut lo: f64,
-    mut hi: f64,
-    start: f64,
-) -> Result<f64> {
-    let mut x = start.clamp(lo, hi);
-    for _ in 0..300 {
-        let (v, d) = h(x);
-        if v == 0.0 {
-            return Ok(x);
-        }
-        if v < 0.0 {
-            lo = x;
-        } else {
-            hi = x;
-        }
-        let newton = x - v / d;
-        let next = if newton.is_finite() && newton > lo && newton < hi {
-            newton
-        } else {
-            0.5 * (lo + hi)
-        };
-        if (next - x).abs() <= 1e-16 * x.abs().max(1e-300) || hi - lo <= 2.0 * f64::EPSILON * hi {
-            return Ok(next);
-        }
-        x = next;
-    }
-    Err(Error::Numerical(format!(
-        "nesting rate function: root finding did not converge in [{lo}, {hi}]"
-    )))
+fn safeguarded_newton(h: impl Fn(f64) -> (f64, f64), lo: f64, hi: f64, start: f64) -> Result<f64> {
+    crate::special::bracketed_newton(|x| Ok(h(x)), lo, hi, start, 1e-16, 2.0)?.ok_or_else(|| {
+        Error::Numerical(format!(
+            "nesting rate function: root finding did not converge in [{lo}, {hi}]"
+        ))
+    })
 }
 
 #[cfg(test)]

@@ -705,3 +705,75 @@ mod tests {
         assert!(hyp2f1(0.5, 0.5, 1.5, f64::NEG_INFINITY).is_err());
     }
 }
+
+/// Why [`increasing_root`] found no root.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) enum RootFailure {
+    /// g stayed negative while the upper end was doubled to infinity.
+    NoBracket,
+    /// The safeguarded Newton iteration did not settle.
+    NoConvergence,
+}
+
+/// The root of an increasing function on `[0, ∞)`, given as `g(x) = (value, derivative)`:
+/// bracket by doubling `hi` until `g(hi) ≥ 0`, then safeguarded Newton (a bisection step
+/// whenever Newton leaves the bracket), starting from `start` (clamped into the bracket), to
+/// relative precision 1e-15 (common practice). Errors from `g` are passed on.
+pub(crate) fn increasing_root(
+    mut g: impl FnMut(f64) -> Result<(f64, f64)>,
+    start: f64,
+    hi: f64,
+) -> Result<std::result::Result<f64, RootFailure>> {
+    let (mut lo, mut hi) = (0.0_f64, hi);
+    while g(hi)?.0 < 0.0 {
+        lo = hi;
+        hi *= 2.0;
+        if !hi.is_finite() {
+            return Ok(Err(RootFailure::NoBracket));
+        }
+    }
+    let mut x = start.clamp(lo, hi);
+    if x <= lo {
+        x = 0.5 * (lo + hi);
+    }
+    Ok(bracketed_newton(g, lo, hi, x, 1e-15, 4.0)?.ok_or(RootFailure::NoConvergence))
+}
+
+/// Newton's method for an increasing function on the bracket `[lo, hi]` from `start`, with a
+/// bisection step whenever Newton leaves the bracket (common practice). Stops when a step is
+/// below `rel_tol·|x|` or the bracket is narrower than `width_ulps·ε·hi`; `None` after 500
+/// iterations. Errors from `g` are passed on.
+pub(crate) fn bracketed_newton(
+    mut g: impl FnMut(f64) -> Result<(f64, f64)>,
+    mut lo: f64,
+    mut hi: f64,
+    start: f64,
+    rel_tol: f64,
+    width_ulps: f64,
+) -> Result<Option<f64>> {
+    let mut x = start.clamp(lo, hi);
+    for _ in 0..500 {
+        let (v, d) = g(x)?;
+        if v == 0.0 {
+            return Ok(Some(x));
+        }
+        if v < 0.0 {
+            lo = x;
+        } else {
+            hi = x;
+        }
+        let newton = x - v / d;
+        let next = if newton.is_finite() && newton > lo && newton < hi {
+            newton
+        } else {
+            0.5 * (lo + hi)
+        };
+        if (next - x).abs() <= rel_tol * x.abs().max(1e-300)
+            || hi - lo <= width_ulps * f64::EPSILON * hi
+        {
+            return Ok(Some(next));
+        }
+        x = next;
+    }
+    Ok(None)
+}

@@ -859,45 +859,15 @@ pub fn chi_squared_quantile(p: f64, dof: f64) -> Result<f64> {
     let z = standard_normal_quantile(p);
     let h = 2.0 / (9.0 * dof);
     let start = dof * (1.0 - h + z * h.sqrt()).max(0.05).powi(3);
-    let mut lo = 0.0_f64;
-    let mut hi = start.max(1e-300);
-    while g(hi)?.0 < 0.0 {
-        lo = hi;
-        hi *= 2.0;
-        if !hi.is_finite() {
-            return Err(Error::Numerical(format!(
-                "chi-squared quantile: no bracket for p = {p}, dof = {dof}"
-            )));
-        }
+    match crate::special::increasing_root(g, start, start.max(1e-300))? {
+        Ok(x) => Ok(x),
+        Err(crate::special::RootFailure::NoBracket) => Err(Error::Numerical(format!(
+            "chi-squared quantile: no bracket for p = {p}, dof = {dof}"
+        ))),
+        Err(crate::special::RootFailure::NoConvergence) => Err(Error::Numerical(format!(
+            "chi-squared quantile: no convergence for p = {p}, dof = {dof}"
+        ))),
     }
-    let mut x = start.clamp(lo, hi);
-    if x <= lo {
-        x = 0.5 * (lo + hi);
-    }
-    for _ in 0..500 {
-        let (v, d) = g(x)?;
-        if v == 0.0 {
-            return Ok(x);
-        }
-        if v < 0.0 {
-            lo = x;
-        } else {
-            hi = x;
-        }
-        let newton = x - v / d;
-        let next = if newton.is_finite() && newton > lo && newton < hi {
-            newton
-        } else {
-            0.5 * (lo + hi)
-        };
-        if (next - x).abs() <= 1e-15 * x || hi - lo <= 4.0 * f64::EPSILON * hi {
-            return Ok(next);
-        }
-        x = next;
-    }
-    Err(Error::Numerical(format!(
-        "chi-squared quantile: no convergence for p = {p}, dof = {dof}"
-    )))
 }
 
 /// Standard normal quantile from the inverse error function of the `special` crate (used only

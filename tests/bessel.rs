@@ -29,34 +29,11 @@ use sleek::bessel::{
     BRIDGE_CUTOFF, MAX_ORDER,
 };
 
+mod common;
+use common::reference::{num, rows, val};
+
 fn reference() -> Value {
-    let path = concat!(
-        env!("CARGO_MANIFEST_DIR"),
-        "/tests/data/bessel_reference.json"
-    );
-    let text = std::fs::read_to_string(path).expect("tests/data/bessel_reference.json is missing");
-    serde_json::from_str(&text).expect("reference JSON does not parse")
-}
-
-fn num(v: &Value, key: &str) -> f64 {
-    v[key]
-        .as_f64()
-        .unwrap_or_else(|| panic!("{key} missing in {v}"))
-}
-
-/// Reference values are decimal strings (25 digits); parsing rounds correctly.
-fn val(v: &Value, key: &str) -> f64 {
-    v[key]
-        .as_str()
-        .unwrap_or_else(|| panic!("{key} missing in {v}"))
-        .parse()
-        .unwrap()
-}
-
-fn rows<'a>(data: &'a Value, key: &str) -> &'a Vec<Value> {
-    data[key]
-        .as_array()
-        .unwrap_or_else(|| panic!("{key} missing"))
+    common::reference::load("bessel_reference.json")
 }
 
 fn rel_err(got: f64, want: f64) -> f64 {

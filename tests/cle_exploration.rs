@@ -38,20 +38,26 @@ fn check_level(kappa: f64, seed: u64, n: u64, level: usize) {
     .unwrap();
     let t = increments(&ex, seed, n, level);
     assert_eq!(t.len() as u64, n, "censored samples at kappa = {kappa}");
-    let m = t.iter().sum::<f64>() / n as f64;
-    let se_t = (law.var_t() / n as f64).sqrt();
+    assert_ssw(&law, &t, &format!("kappa = {kappa}, level {level}"));
+}
+
+/// E[T] and E[CR] = E[e^{−T}] of a sample against the exact law, 4σ with σ from the exact
+/// variances (Var T, and E[CR²] − E[CR]²).
+fn assert_ssw(law: &CleLaw, t: &[f64], what: &str) {
+    let n = t.len() as f64;
+    let m = t.iter().sum::<f64>() / n;
+    let se_t = (law.var_t() / n).sqrt();
     assert!(
         (m - law.mean_t()).abs() < 4.0 * se_t,
-        "kappa = {kappa}, level {level}: E[T] = {m} vs {} (σ = {se_t})",
+        "{what}: E[T] = {m} vs {} (σ = {se_t})",
         law.mean_t()
     );
-    // E[CR] = E[e^{−T}], σ² = (E[CR²] − E[CR]²)/n from the exact law.
-    let cr = t.iter().map(|x| (-x).exp()).sum::<f64>() / n as f64;
+    let cr = t.iter().map(|x| (-x).exp()).sum::<f64>() / n;
     let e1 = law.cr_moment(1.0).unwrap();
-    let se_cr = ((law.cr_moment(2.0).unwrap() - e1 * e1) / n as f64).sqrt();
+    let se_cr = ((law.cr_moment(2.0).unwrap() - e1 * e1) / n).sqrt();
     assert!(
         (cr - e1).abs() < 4.0 * se_cr,
-        "kappa = {kappa}, level {level}: E[CR] = {cr} vs {e1} (σ = {se_cr})"
+        "{what}: E[CR] = {cr} vs {e1} (σ = {se_cr})"
     );
 }
 
@@ -107,19 +113,10 @@ fn check_joint(kappa: f64, seed: u64, n: u64) {
                     }
                 })
                 .collect();
-            let m = t.iter().sum::<f64>() / n as f64;
-            let se_t = (law.var_t() / n as f64).sqrt();
-            assert!(
-                (m - law.mean_t()).abs() < 4.0 * se_t,
-                "kappa = {kappa}, point {j}, level {level}: E[T] = {m} vs {} (σ = {se_t})",
-                law.mean_t()
-            );
-            let cr = t.iter().map(|x| (-x).exp()).sum::<f64>() / n as f64;
-            let e1 = law.cr_moment(1.0).unwrap();
-            let se_cr = ((law.cr_moment(2.0).unwrap() - e1 * e1) / n as f64).sqrt();
-            assert!(
-                (cr - e1).abs() < 4.0 * se_cr,
-                "kappa = {kappa}, point {j}, level {level}: E[CR] = {cr} vs {e1} (σ = {se_cr})"
+            assert_ssw(
+                &law,
+                &t,
+                &format!("kappa = {kappa}, point {j}, level {level}"),
             );
         }
     }

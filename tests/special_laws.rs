@@ -25,34 +25,11 @@ use sleek::laws::{phase, schramm_left_passage, trace_dimension, CleLaw, Phase};
 use sleek::special::{gamma, hyp2f1, ln_gamma, tanh_sinh};
 use std::f64::consts::PI;
 
+mod common;
+use common::reference::{num, rows, val};
+
 fn reference() -> Value {
-    let path = concat!(
-        env!("CARGO_MANIFEST_DIR"),
-        "/tests/data/reference_values.json"
-    );
-    let text = std::fs::read_to_string(path).expect("tests/data/reference_values.json is missing");
-    serde_json::from_str(&text).expect("reference JSON does not parse")
-}
-
-fn num(v: &Value, key: &str) -> f64 {
-    v[key]
-        .as_f64()
-        .unwrap_or_else(|| panic!("{key} missing in {v}"))
-}
-
-/// Reference values are stored as decimal strings (30 digits); parsing rounds correctly.
-fn val(v: &Value, key: &str) -> f64 {
-    v[key]
-        .as_str()
-        .unwrap_or_else(|| panic!("{key} missing in {v}"))
-        .parse()
-        .unwrap()
-}
-
-fn rows<'a>(data: &'a Value, key: &str) -> &'a Vec<Value> {
-    data[key]
-        .as_array()
-        .unwrap_or_else(|| panic!("{key} missing"))
+    common::reference::load("reference_values.json")
 }
 
 fn rel_err(got: f64, want: f64) -> f64 {

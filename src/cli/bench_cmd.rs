@@ -25,13 +25,7 @@ pub fn run(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
                  with N equal steps; fast times include building the block tree",
         "report": rep,
     });
-    let text = serde_json::to_string_pretty(&rec).map_err(|e| Failure::Runtime(e.to_string()))?;
-    if let Some(p) = in_out(g, "bench.json") {
-        write_file(&p, text.as_bytes())?;
-        note(g, &format!("wrote {}", p.display()));
-    }
-    if g.json {
-        out!("{text}");
+    if write_record(g, "bench.json", &rec)? {
         return Ok(());
     }
     out!(
@@ -108,13 +102,7 @@ fn run_cle(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
         "note": "points = 0 is the bare angle process (no geometry); relative cost is per step",
         "rows": rows,
     });
-    let text = serde_json::to_string_pretty(&rec).map_err(|e| Failure::Runtime(e.to_string()))?;
-    if let Some(p) = in_out(g, "bench-cle.json") {
-        write_file(&p, text.as_bytes())?;
-        note(g, &format!("wrote {}", p.display()));
-    }
-    if g.json {
-        out!("{text}");
+    if write_record(g, "bench-cle.json", &rec)? {
         return Ok(());
     }
     out!(
@@ -147,4 +135,19 @@ fn run_cle(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
         );
     }
     Ok(())
+}
+
+/// Write the JSON record to `--out/<name>` when given, and print it with --json; true when it was
+/// printed (the table is then skipped).
+fn write_record(g: &Global, name: &str, rec: &serde_json::Value) -> Result<bool, Failure> {
+    let text = serde_json::to_string_pretty(rec).map_err(|e| Failure::Runtime(e.to_string()))?;
+    if let Some(p) = in_out(g, name) {
+        write_file(&p, text.as_bytes())?;
+        note(g, &format!("wrote {}", p.display()));
+    }
+    if g.json {
+        out!("{text}");
+        return Ok(true);
+    }
+    Ok(false)
 }

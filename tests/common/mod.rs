@@ -102,3 +102,39 @@ pub fn forward_sqrt_step(z: C, w0: f64, c: f64, dt: f64, tol: f64) -> C {
 pub fn inverse_sqrt_step(w: C, w0: f64, c: f64, dt: f64, tol: f64) -> C {
     dopri(|s, h| 4.0 * s / (h - w0 - c * s), dt.sqrt(), 0.0, w, tol)
 }
+
+/// Reference values written by the mpmath scripts in `scripts/` (files in `tests/data/`).
+pub mod reference {
+    use serde_json::Value;
+
+    /// The parsed JSON file `tests/data/<name>`.
+    pub fn load(name: &str) -> Value {
+        let path = format!("{}/tests/data/{name}", env!("CARGO_MANIFEST_DIR"));
+        let text = std::fs::read_to_string(&path).unwrap_or_else(|_| panic!("{path} is missing"));
+        serde_json::from_str(&text).expect("reference JSON does not parse")
+    }
+
+    /// A field stored as a JSON number (inputs: exact IEEE doubles).
+    pub fn num(v: &Value, key: &str) -> f64 {
+        v[key]
+            .as_f64()
+            .unwrap_or_else(|| panic!("{key} missing in {v}"))
+    }
+
+    /// A field stored as a decimal string (reference values, 20–30 digits; parsing rounds
+    /// correctly).
+    pub fn val(v: &Value, key: &str) -> f64 {
+        v[key]
+            .as_str()
+            .unwrap_or_else(|| panic!("{key} missing in {v}"))
+            .parse()
+            .unwrap()
+    }
+
+    /// An array field.
+    pub fn rows<'a>(data: &'a Value, key: &str) -> &'a Vec<Value> {
+        data[key]
+            .as_array()
+            .unwrap_or_else(|| panic!("{key} missing"))
+    }
+}
