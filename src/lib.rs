@@ -36,6 +36,7 @@ pub mod audit;
 pub mod bench;
 pub mod bessel;
 pub mod cle;
+pub mod disk_fast;
 pub mod domain;
 pub mod driving;
 pub mod error;

@@ -203,7 +203,7 @@ pub struct RadialCurve {
     pub driving: Vec<f64>,
     /// Force-point angles η_k after each step (with ρ only).
     pub force: Vec<f64>,
-    /// The trace points γ(t_k), k = 0..=n (direct composition of the inverse steps).
+    /// The trace points γ(t_k), k = 0..=n.
     pub points: Vec<Complex64>,
     /// Radial time at which θ reached 2π, if it did: the end of the step in which the visit was
     /// sampled (the curve stops before that step).
@@ -242,7 +242,7 @@ impl RadialSle {
     /// A sampler.
     ///
     /// Errors: [`crate::Error::InvalidParameter`] for κ outside (0, 10⁴], ρ ≤ −2, a time
-    /// outside (0, 50] or steps outside [1, 10⁵] (the trace is composed directly, O(steps²)).
+    /// outside (0, 50] or steps outside [1, 10⁶].
     pub fn new(kappa: f64, rho: Option<f64>, time: f64, steps: usize) -> crate::Result<Self> {
         use crate::error::Error;
         if !(kappa.is_finite() && kappa > 0.0 && kappa <= 1e4) {
@@ -258,11 +258,11 @@ impl RadialSle {
                 "0 < t <= 50 (radial time: the hull's conformal radius seen from 0 is e^-t)",
             ));
         }
-        if !(1..=100_000).contains(&steps) {
+        if !(1..=1_000_000).contains(&steps) {
             return Err(Error::param(
                 "points",
                 steps as f64,
-                "1 <= points <= 100000 for radial curves (direct composition, O(points²))",
+                "1 <= points <= 1000000 for radial curves",
             ));
         }
         Ok(RadialSle {
@@ -272,10 +272,38 @@ impl RadialSle {
         })
     }
 
-    /// Sample `index` of a run with `seed` (a pure function of both).
+    /// Sample `index` of a run with `seed` (a pure function of both), its trace composed by the
+    /// disk block tree ([`crate::disk_fast`], about N log N).
     pub fn sample(&self, seed: u64, index: u64) -> RadialCurve {
+        self.sample_with(seed, index, crate::loewner::Method::Fast)
+    }
+
+    /// [`RadialSle::sample`] with the trace composed by `method`: `Fast` (the disk block tree)
+    /// or `Direct` (every inverse step for every point, O(N²); the reference).
+    pub fn sample_with(
+        &self,
+        seed: u64,
+        index: u64,
+        method: crate::loewner::Method,
+    ) -> RadialCurve {
         let mut c = self.sample_driving(seed, index);
-        c.points = (0..c.times.len()).map(|k| c.chain.trace_point(k)).collect();
+        c.points = match method {
+            crate::loewner::Method::Direct => {
+                (0..c.times.len()).map(|k| c.chain.trace_point(k)).collect()
+            }
+            crate::loewner::Method::Fast => {
+                let mut tree = crate::disk_fast::DiskChain::new();
+                for s in c.chain.steps() {
+                    tree.push(crate::disk_fast::DiskMap::Step {
+                        step: *s,
+                        rot: Complex64::new(1.0, 0.0),
+                    });
+                }
+                let mut pts = vec![c.chain.trace_point(0)];
+                pts.extend((0..tree.len()).filter_map(|k| tree.tip_point(k)));
+                pts
+            }
+        };
         c
     }
 

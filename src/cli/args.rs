@@ -138,8 +138,9 @@ pub struct TraceArgs {
     #[arg(long, short = 'n', default_value = "1", value_parser = parse_count)]
     pub count: u64,
     /// Chordal: N equal capacity steps, no refinement (N points after the start). Radial: N steps
-    /// (default 2000, at most 10⁵), half uniform in e^−2t and half in t; the trace is composed
-    /// directly, O(N²): about 20 s for one curve of 2·10⁴ points.
+    /// (default 2000, at most 10⁶), half uniform in e^−2t and half in t; the trace is composed
+    /// by the disk block tree (--method fast, about N log N) or directly (--method direct,
+    /// O(N²), at most 10⁵).
     #[arg(long, value_parser = parse_count, conflicts_with_all = ["spacing", "spacing_rel"])]
     pub points: Option<u64>,
     /// Refine until consecutive points are at most this far apart (absolute distance in H).

@@ -6,6 +6,7 @@ use super::Failure;
 use rayon::prelude::*;
 use sleek::audit::fmt_kappa;
 use sleek::domain::ChordalDomain;
+use sleek::loewner::Method;
 use sleek::plot::{PlaneFigure, Polyline};
 use sleek::radial::{RadialCurve, RadialSle};
 
@@ -26,10 +27,11 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
     };
     let time = a.time.unwrap_or(1.0);
     let steps = a.points.unwrap_or(2000);
-    if steps > 100_000 {
+    let method = super::trace_cmd::method(a.method);
+    if steps > 1_000_000 || (method == Method::Direct && steps > 100_000) {
         return usage(&format!(
-            "invalid value '{steps}' for '--points <POINTS>': at most 100000 for radial curves \
-             (the trace is composed directly, O(points²))"
+            "invalid value '{steps}' for '--points <POINTS>': at most 1000000 for radial curves \
+             (100000 with --method direct, which is O(points²))"
         ));
     }
     if a.count > 1000 {
@@ -51,7 +53,7 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
     let seed = common::resolve_seed(g);
     let curves: Vec<RadialCurve> = (0..a.count)
         .into_par_iter()
-        .map(|i| sle.sample(seed, i))
+        .map(|i| sle.sample_with(seed, i, method))
         .collect();
     let name = match a.rho {
         Some(r) => format!("radial SLE_{}({})", fmt_kappa(kappa), r),

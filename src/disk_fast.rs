@@ -1,0 +1,445 @@
+//! Fast composition of radial Loewner chains in the unit disk: an append-only binary tree of
+//! blocks of consecutive maps, each with a series of its composed inverse map valid away from
+//! the block's singular arc.
+//!
+//! Convention: a chain is a sequence of conformal maps of frames, stored in their forward
+//! direction `g_e`: frame `e − 1` → frame `e` (each frame is the unit disk D). The maps are radial
+//! steps of DESIGN §2 (`∂_t g = g (e^{iξ} + g)/(e^{iξ} − g)`, `g(0) = 0`) followed by a
+//! rotation, and disk automorphisms (changes of the frame's normalising point). A point of the
+//! last frame is taken back to the first by the composed inverse `F_1 ∘ … ∘ F_n`.
+//!
+//! # Why the disk fits a block series
+//! For a block B of consecutive maps, `F_B` maps D onto D minus a hull, and the unit circle
+//! outside an arc `A_B` (the preimage of the hull, in the block's output frame) onto the circle.
+//! By Schwarz reflection, `F(z) = 1/conj(F(1/z̄))`, it extends analytically to the Riemann sphere
+//! minus `A_B`, except for one simple pole (at the reflection of `F_B⁻¹(0)`). Composing with the
+//! disk automorphism `M_q(u) = (u + q)/(1 + q̄u)`, `q = F_B(0)`, gives `H_B = M_q⁻¹ ∘ F_B` with
+//! `H_B(0) = 0`, whose only pole is at ∞. So about the midpoint `c` of the arc (on the circle),
+//! with `R` the chord from `c` to the arc's ends,
+//! `H_B(z) = a₋₁ (z − c) + a₀ + Σ_{m≥1} a_m (z − c)^{−m}` for `|z − c| > R`,
+//! and `F_B = M_q ∘ H_B`. The coefficients come from samples of `H_B` on the circle
+//! `|z − c| = 2R` (outside D by reflection) and a discrete Fourier transform (spectrally accurate
+//! for analytic periodic data; common practice, e.g. Trefethen & Weideman, SIAM Rev. 2014). A
+//! point goes through a block by its series when `|z − c| > 3R` (truncation about `3^{−29}` of the
+//! block's scale), otherwise through the block's two halves, down to leaves of eight maps
+//! composed directly. The chordal version of the same idea is [`crate::fast`]; the disk differs
+//! in complex coefficients, arcs on the circle instead of real intervals, and the automorphism
+//! factor `M_q`, which is what a fixed Cayley frame could not absorb.
+//!
+//! The tree is *append-only*: a block is completed (its series computed) as soon as its last
+//! map is pushed, so a growing exploration can map its current tip back to the start at any
+//! time, and a prefix of the chain (what a branch of a CLE exploration inherits) is always a
+//! union of completed blocks and at most seven loose maps.
+
+use crate::radial::RadialStep;
+use num_complex::Complex64;
+use std::f64::consts::TAU;
+
+/// One map of a disk chain, given by its forward direction (frame before → frame after).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum DiskMap {
+    /// A radial step (DESIGN §2) followed by the rotation `rot` (|rot| = 1): `w ↦ rot · G(w)`.
+    Step {
+        /// The radial step.
+        step: RadialStep,
+        /// Rotation applied after the step.
+        rot: Complex64,
+    },
+    /// A disk automorphism `w ↦ rot · (w − c)/(1 − c̄ w)` (|c| < 1, |rot| = 1): a change of the
+    /// frame's normalising point from 0 to `c`.
+    Mobius {
+        /// The point sent to 0.
+        c: Complex64,
+        /// Rotation applied after.
+        rot: Complex64,
+    },
+}
+
+impl DiskMap {
+    /// The inverse map, frame after → frame before, for `|z| ≤ 1`.
+    #[inline]
+    pub fn inverse(&self, z: Complex64) -> Complex64 {
+        match *self {
+            DiskMap::Step { step, rot } => step.inverse(z * rot.conj()),
+            DiskMap::Mobius { c, rot } => {
+                let u = z * rot.conj();
+                (u + c) / (1.0 + c.conj() * u)
+            }
+        }
+    }
+
+    /// The forward map of the boundary point `e^{iα}`, as an angle (not unwrapped).
+    pub fn forward_angle(&self, alpha: f64) -> f64 {
+        match *self {
+            DiskMap::Step { step, rot } => step.forward_boundary_angle(alpha, 1.0) + rot.arg(),
+            DiskMap::Mobius { c, rot } => {
+                let u = Complex64::from_polar(1.0, alpha);
+                ((u - c) / (1.0 - c.conj() * u) * rot).arg()
+            }
+        }
+    }
+
+    /// The arc of the output frame's circle that the inverse map does not send to the circle
+    /// (the preimage of the step's slit); `None` for automorphisms.
+    fn arc(&self) -> Option<Arc> {
+        match *self {
+            DiskMap::Step { step, rot } => {
+                // The slit is the Cayley-frame vertical slit of capacity s = (1 − e^{−Δt})/4,
+                // whose preimage [−2√s, 2√s] is dilated by e^{Δt/2}; back on the circle an
+                // abscissa x is the angle ξ + 2 atan(x) (see `RadialStep`).
+                let s = -(-step.dt).exp_m1() / 4.0;
+                let half = 2.0 * (2.0 * s.sqrt() * (0.5 * step.dt).exp()).atan();
+                Some(Arc {
+                    start: step.xi + rot.arg() - half,
+                    len: 2.0 * half,
+                })
+            }
+            DiskMap::Mobius { .. } => None,
+        }
+    }
+}
+
+/// An arc of the unit circle from angle `start`, counter-clockwise over `len` ∈ [0, 2π].
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct Arc {
+    start: f64,
+    len: f64,
+}
+
+/// Arcs longer than this are treated as the whole circle (their blocks keep no series anyway).
+const LONG_ARC: f64 = 3.0;
+
+impl Arc {
+    fn full() -> Self {
+        Arc {
+            start: 0.0,
+            len: TAU,
+        }
+    }
+
+    /// The image of the arc under a map's forward boundary correspondence (orientation kept).
+    fn push(self, m: &DiskMap) -> Self {
+        if self.len >= LONG_ARC {
+            return Arc::full();
+        }
+        let a = m.forward_angle(self.start);
+        let b = m.forward_angle(self.start + self.len);
+        Arc {
+            start: a,
+            len: (b - a).rem_euclid(TAU),
+        }
+    }
+
+    /// The shorter of the two arcs that start at one of the arcs and cover both.
+    fn union(self, o: Arc) -> Self {
+        if self.len >= LONG_ARC || o.len >= LONG_ARC {
+            return Arc::full();
+        }
+        let d1 = (o.start - self.start).rem_euclid(TAU);
+        let l1 = self.len.max(d1 + o.len);
+        let d2 = (self.start - o.start).rem_euclid(TAU);
+        let l2 = o.len.max(d2 + self.len);
+        if l1 <= l2 {
+            Arc {
+                start: self.start,
+                len: l1.min(TAU),
+            }
+        } else {
+            Arc {
+                start: o.start,
+                len: l2.min(TAU),
+            }
+        }
+    }
+}
+
+fn union_opt(a: Option<Arc>, b: Option<Arc>) -> Option<Arc> {
+    match (a, b) {
+        (Some(a), Some(b)) => Some(a.union(b)),
+        (a, None) => a,
+        (None, b) => b,
+    }
+}
+
+/// Maps in a leaf block.
+const LEAF: usize = 8;
+/// Laurent coefficients `a₁ … a_TERMS` kept per block (plus `a₋₁`, `a₀`).
+const TERMS: usize = 28;
+/// Samples on the circle `|z − c| = 2R` (the DFT length).
+const SAMPLES: usize = 64;
+/// Series used only when `|z − c| > ACCEPT · R`.
+const ACCEPT: f64 = 3.0;
+/// Blocks whose arc's chord radius exceeds this keep no series (the acceptance disk would cover
+/// most of D).
+const MAX_RADIUS: f64 = 0.3;
+
+#[derive(Debug, Clone)]
+struct Node {
+    arc: Option<Arc>,
+    /// `F_B(0)`.
+    q: Complex64,
+    centre: Complex64,
+    radius: f64,
+    coeffs: [Complex64; TERMS + 2],
+    has_series: bool,
+}
+
+/// `e^{2πi j / SAMPLES}`.
+fn twiddles() -> &'static [Complex64; SAMPLES] {
+    static TW: std::sync::OnceLock<[Complex64; SAMPLES]> = std::sync::OnceLock::new();
+    TW.get_or_init(|| {
+        let mut t = [Complex64::new(0.0, 0.0); SAMPLES];
+        for (j, e) in t.iter_mut().enumerate() {
+            *e = Complex64::from_polar(1.0, TAU * j as f64 / SAMPLES as f64);
+        }
+        t
+    })
+}
+
+/// A disk chain with its block tree, grown one map at a time (see the module docs).
+#[derive(Debug, Clone, Default)]
+pub struct DiskChain {
+    maps: Vec<DiskMap>,
+    /// `levels[l][k]` covers maps `[k·LEAF·2^l, (k+1)·LEAF·2^l)`.
+    levels: Vec<Vec<Node>>,
+}
+
+impl DiskChain {
+    /// An empty chain (the identity).
+    pub fn new() -> Self {
+        Self::default()
+    }
+
+    /// Number of maps.
+    pub fn len(&self) -> usize {
+        self.maps.len()
+    }
+
+    /// Whether the chain has no map.
+    pub fn is_empty(&self) -> bool {
+        self.maps.is_empty()
+    }
+
+    /// The maps, in order.
+    pub fn maps(&self) -> &[DiskMap] {
+        &self.maps
+    }
+
+    /// Approximate heap memory in bytes (maps and blocks).
+    pub fn memory_bytes(&self) -> usize {
+        self.maps.capacity() * std::mem::size_of::<DiskMap>()
+            + self
+                .levels
+                .iter()
+                .map(|l| l.capacity() * std::mem::size_of::<Node>())
+                .sum::<usize>()
+    }
+
+    /// Blocks with a usable series, and all blocks (a diagnostic of the tree's reach).
+    pub fn series_blocks(&self) -> (usize, usize) {
+        let all = self.levels.iter().map(|l| l.len()).sum();
+        let with = self
+            .levels
+            .iter()
+            .flat_map(|l| l.iter())
+            .filter(|n| n.has_series)
+            .count();
+        (with, all)
+    }
+
+    /// Append a map; completes every block that ends with it.
+    pub fn push(&mut self, m: DiskMap) {
+        self.maps.push(m);
+        let n = self.maps.len();
+        if n % LEAF != 0 {
+            return;
+        }
+        let mut level = 0;
+        let mut k = n / LEAF - 1;
+        loop {
+            if self.levels.len() <= level {
+                self.levels.push(Vec::new());
+            }
+            let node = self.build(level, k);
+            debug_assert_eq!(self.levels[level].len(), k);
+            self.levels[level].push(node);
+            if k % 2 == 0 {
+                break;
+            }
+            level += 1;
+            k /= 2;
+        }
+    }
+
+    fn build(&self, level: usize, k: usize) -> Node {
+        let arc = if level == 0 {
+            let start = k * LEAF;
+            let mut a: Option<Arc> = None;
+            for m in &self.maps[start..start + LEAF] {
+                a = union_opt(a.map(|x| x.push(m)), m.arc());
+            }
+            a
+        } else {
+            let (first, second) = (
+                &self.levels[level - 1][2 * k],
+                &self.levels[level - 1][2 * k + 1],
+            );
+            let size = LEAF << (level - 1);
+            let start = (2 * k + 1) * size;
+            let pushed = first.arc.map(|mut a| {
+                for m in &self.maps[start..start + size] {
+                    a = a.push(m);
+                    if a.len >= LONG_ARC {
+                        break;
+                    }
+                }
+                a
+            });
+            union_opt(pushed, second.arc)
+        };
+        let mut node = Node {
+            arc,
+            q: Complex64::new(0.0, 0.0),
+            centre: Complex64::new(1.0, 0.0),
+            radius: 0.0,
+            coeffs: [Complex64::new(0.0, 0.0); TERMS + 2],
+            has_series: false,
+        };
+        node.q = self.apply_block(level, k, Complex64::new(0.0, 0.0), None);
+        if let Some(a) = arc {
+            if a.len < LONG_ARC {
+                node.centre = Complex64::from_polar(1.0, a.start + 0.5 * a.len);
+                node.radius = 2.0 * (0.25 * a.len).sin();
+                if node.radius <= MAX_RADIUS && node.radius > 0.0 {
+                    node.coeffs = self.sample_coefficients(level, k, &node);
+                    node.has_series = node
+                        .coeffs
+                        .iter()
+                        .all(|c| c.re.is_finite() && c.im.is_finite());
+                }
+            }
+        }
+        node
+    }
+
+    /// Series coefficients of `H_B = M_q⁻¹ ∘ F_B` about the node's centre, from samples on the
+    /// circle of radius 2R (points outside D by Schwarz reflection).
+    fn sample_coefficients(&self, level: usize, k: usize, node: &Node) -> [Complex64; TERMS + 2] {
+        let r = 2.0 * node.radius;
+        let tw = twiddles();
+        let q = node.q;
+        let mut f = [Complex64::new(0.0, 0.0); SAMPLES];
+        for (j, fj) in f.iter_mut().enumerate() {
+            let z = node.centre + tw[j] * r;
+            let fz = if z.norm_sqr() <= 1.0 {
+                self.apply_block(level, k, z, None)
+            } else {
+                let inner = self.apply_block(level, k, 1.0 / z.conj(), None);
+                1.0 / inner.conj()
+            };
+            *fj = (fz - q) / (1.0 - q.conj() * fz);
+        }
+        let mut a = [Complex64::new(0.0, 0.0); TERMS + 2];
+        for (i, am) in a.iter_mut().enumerate() {
+            let m = i as i64 - 1;
+            let mut s = Complex64::new(0.0, 0.0);
+            for (j, fj) in f.iter().enumerate() {
+                s += fj * tw[(m * j as i64).rem_euclid(SAMPLES as i64) as usize];
+            }
+            *am = s / SAMPLES as f64 * r.powi(m as i32);
+        }
+        a
+    }
+
+    /// `F_B(z)` for block `(level, k)`; `own` is the node itself when it is already stored (its
+    /// series may then be used), `None` while it is being built (its halves are used).
+    fn apply_block(&self, level: usize, k: usize, z: Complex64, own: Option<&Node>) -> Complex64 {
+        if let Some(n) = own {
+            if n.has_series {
+                let w = z - n.centre;
+                if w.norm() > ACCEPT * n.radius {
+                    let u = w.inv();
+                    let mut s = Complex64::new(0.0, 0.0);
+                    for am in n.coeffs[2..].iter().rev() {
+                        s = (s + am) * u;
+                    }
+                    let h = n.coeffs[0] * w + n.coeffs[1] + s;
+                    return (h + n.q) / (1.0 + n.q.conj() * h);
+                }
+            }
+        }
+        if level == 0 {
+            let start = k * LEAF;
+            return self.maps[start..start + LEAF]
+                .iter()
+                .rev()
+                .fold(z, |z, m| m.inverse(z));
+        }
+        let second = &self.levels[level - 1][2 * k + 1];
+        let z = self.apply_block(level - 1, 2 * k + 1, z, Some(second));
+        let first = &self.levels[level - 1][2 * k];
+        self.apply_block(level - 1, 2 * k, z, Some(first))
+    }
+
+    /// `F_1 ∘ … ∘ F_m (z)`: a point of frame `m` (after the first `m` maps) taken back to frame 0,
+    /// for `|z| ≤ 1`, by the block series where the point is far from a block's arc.
+    ///
+    /// `m` is clamped to the chain's length.
+    pub fn apply_prefix(&self, m: usize, z: Complex64) -> Complex64 {
+        let m = m.min(self.maps.len());
+        let leaves = m / LEAF;
+        let mut z = self.maps[leaves * LEAF..m]
+            .iter()
+            .rev()
+            .fold(z, |z, s| s.inverse(z));
+        // The complete leaves [0, leaves) as aligned dyadic blocks, the latest first.
+        let mut rest = leaves;
+        let mut level = 0;
+        while rest > 0 {
+            if rest & 1 == 1 {
+                let k = rest - 1;
+                let node = &self.levels[level][k];
+                z = self.apply_block(level, k, z, Some(node));
+                rest -= 1;
+            }
+            rest >>= 1;
+            level += 1;
+        }
+        z
+    }
+
+    /// The same as [`DiskChain::apply_prefix`] by composing every map (the reference).
+    pub fn apply_prefix_direct(&self, m: usize, z: Complex64) -> Complex64 {
+        let m = m.min(self.maps.len());
+        self.maps[..m].iter().rev().fold(z, |z, s| s.inverse(z))
+    }
+
+    /// The trace point of map `n` (0-based) when it is a radial step: the tip of its slit taken
+    /// back to frame 0; `None` for automorphisms.
+    pub fn tip_point(&self, n: usize) -> Option<Complex64> {
+        match self.maps.get(n)? {
+            DiskMap::Step { step, .. } => Some(self.apply_prefix(n, step.tip())),
+            DiskMap::Mobius { .. } => None,
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn arc_union_is_the_shorter_cover() {
+        let a = Arc {
+            start: 6.0,
+            len: 0.4,
+        };
+        let b = Arc {
+            start: 0.1,
+            len: 0.2,
+        };
+        let u = a.union(b);
+        assert!((u.start - 6.0).abs() < 1e-15);
+        assert!((u.len - (0.3 + TAU - 6.0)).abs() < 1e-12);
+    }
+}
