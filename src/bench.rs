@@ -5,6 +5,7 @@ use crate::driving::BrownianPath;
 use crate::error::Result;
 use crate::loewner::{ChordalChain, Method, StepKind};
 use crate::stats::log_log_slope;
+use num_complex::Complex64;
 use serde::Serialize;
 use std::time::Instant;
 
@@ -94,17 +95,43 @@ fn chain(kappa: f64, n: usize, seed: u64) -> Result<ChordalChain> {
     Ok(ChordalChain::new(p.driving(), StepKind::Tilted))
 }
 
-/// Run the benchmark; `progress` receives a short description of each stage as it starts.
+/// A curve to time: `(κ, N, seed, method)` → the trace points; only the evaluation of the
+/// trace is timed, not the sampling of the driving function.
+pub type TraceJob<'a> = &'a dyn Fn(f64, usize, u64, Method) -> Result<(Vec<Complex64>, f64)>;
+
+/// Run the benchmark on chordal SLE (tilted slits, t = 1); `progress` receives a short
+/// description of each stage as it starts.
 ///
 /// # Errors
 /// Only for invalid sizes.
 pub fn run(s: &BenchSettings, progress: &dyn Fn(&str)) -> Result<BenchReport> {
-    let mut timings = Vec::new();
-    let time = |n: usize, m: Method, timings: &mut Vec<Timing>| -> Result<f64> {
-        let ch = chain(4.0, n, s.seed)?;
+    run_with(s, progress, &|kappa, n, seed, m| {
+        let ch = chain(kappa, n, seed)?;
         let t0 = Instant::now();
         let tr = ch.trace(m)?;
-        let secs = t0.elapsed().as_secs_f64();
+        Ok((tr, t0.elapsed().as_secs_f64()))
+    })
+}
+
+/// The same benchmark on radial SLE_κ in the disk (DESIGN §2), radial time 3 on the grid of
+/// [`crate::radial::radial_grid`]: `direct` composes every radial step for every point, `fast`
+/// uses the disk block tree of [`crate::disk_fast`] (building it is included in its time).
+///
+/// # Errors
+/// Only for invalid sizes.
+pub fn run_radial(s: &BenchSettings, progress: &dyn Fn(&str)) -> Result<BenchReport> {
+    run_with(s, progress, &|kappa, n, seed, m| {
+        let sle = crate::radial::RadialSle::new(kappa, None, 3.0, n)?;
+        let t0 = Instant::now();
+        let c = sle.sample_with(seed, 0, m);
+        Ok((c.points, t0.elapsed().as_secs_f64()))
+    })
+}
+
+fn run_with(s: &BenchSettings, progress: &dyn Fn(&str), job: TraceJob) -> Result<BenchReport> {
+    let mut timings = Vec::new();
+    let time = |n: usize, m: Method, timings: &mut Vec<Timing>| -> Result<f64> {
+        let (tr, secs) = job(4.0, n, s.seed, m)?;
         std::hint::black_box(tr);
         timings.push(Timing {
             n,
@@ -149,9 +176,8 @@ pub fn run(s: &BenchSettings, progress: &dyn Fn(&str)) -> Result<BenchReport> {
     let mut agreement = Vec::new();
     for &k in &s.kappas {
         progress(&format!("agreement at κ = {k}"));
-        let ch = chain(k, s.agreement_n, s.seed + 1)?;
-        let d = ch.trace(Method::Direct)?;
-        let f = ch.trace(Method::Fast)?;
+        let (d, _) = job(k, s.agreement_n, s.seed + 1, Method::Direct)?;
+        let (f, _) = job(k, s.agreement_n, s.seed + 1, Method::Fast)?;
         let diam = 2.0 * d.iter().map(|z| z.norm()).fold(0.0, f64::max);
         let dev = d
             .iter()

@@ -94,3 +94,29 @@ fn series_are_used() {
     assert_eq!(all, 4096 / 8 * 2 - 1);
     assert!(with >= 4096 / 8, "{with} of {all} blocks have a series");
 }
+
+#[test]
+fn radial_sle_traces_fast_equal_direct() {
+    // The sampler's two methods on the same driving function (same seed and index), with and
+    // without a force point, where the trace comes back close to earlier parts of the curve.
+    use sleek::loewner::Method;
+    use sleek::radial::RadialSle;
+    for (kappa, rho, seed) in [
+        (2.0, None, 1u64),
+        (6.0, None, 2),
+        (4.0, Some(0.5), 3),
+        (8.0, Some(-1.0), 4),
+    ] {
+        let sle = RadialSle::new(kappa, rho, 3.0, 2500).unwrap();
+        let f = sle.sample_with(seed, 0, Method::Fast);
+        let d = sle.sample_with(seed, 0, Method::Direct);
+        assert_eq!(f.points.len(), d.points.len());
+        let worst = f
+            .points
+            .iter()
+            .zip(&d.points)
+            .map(|(a, b)| (a - b).norm())
+            .fold(0.0, f64::max);
+        assert!(worst < 1e-11, "κ={kappa} ρ={rho:?}: {worst:e}");
+    }
+}

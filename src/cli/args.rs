@@ -85,8 +85,12 @@ pub struct BenchArgs {
     pub max_n: u64,
     /// Time the CLE exploration instead: steps per second of the bare angle process and of
     /// explorations with 1, 3 and 10 marked points, at κ = 3, 4, 16/3, 6.
-    #[arg(long)]
+    #[arg(long, conflicts_with = "radial")]
     pub cle: bool,
+    /// Time radial SLE_4 traces in the disk instead (direct against the disk block tree, radial
+    /// time 3), with the same table.
+    #[arg(long)]
+    pub radial: bool,
     /// Runs per CLE timing (with --cle).
     #[arg(long, default_value = "1000", value_parser = parse_count)]
     pub cle_samples: u64,

@@ -16,22 +16,31 @@ pub fn run(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
     if let Some(seed) = g.seed {
         s.seed = seed;
     }
-    let rep = bench::run(&s, &|msg| note(g, msg))?;
+    let (rep, what, file) = if a.radial {
+        (
+            bench::run_radial(&s, &|msg| note(g, msg))?,
+            "radial SLE_4 in the disk (radial time 3, N steps)",
+            "bench-radial.json",
+        )
+    } else {
+        (
+            bench::run(&s, &|msg| note(g, msg))?,
+            "chordal SLE_4 (tilted slits, t = 1, N equal steps)",
+            "bench.json",
+        )
+    };
     let rec = serde_json::json!({
         "format": "sleek/bench",
         "format_version": sleek::io::FORMAT_VERSION,
         "sleek_version": env!("CARGO_PKG_VERSION"),
-        "note": "wall-clock times of the trace of one chordal SLE_4 curve (tilted slits, t = 1) \
-                 with N equal steps; fast times include building the block tree",
+        "note": format!("wall-clock times of the trace of one curve of {what}; fast times \
+                 include building the block tree"),
         "report": rep,
     });
-    if write_record(g, "bench.json", &rec)? {
+    if write_record(g, file, &rec)? {
         return Ok(());
     }
-    out!(
-        "trace of chordal SLE_4 (tilted slits, N equal steps), {} threads",
-        rep.threads
-    );
+    out!("trace of {what}, {} threads", rep.threads);
     out!(
         "{:>9}  {:>12}  {:>12}  {:>9}  {:>10}",
         "N",
