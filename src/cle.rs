@@ -49,6 +49,7 @@
 //! branches are created.
 
 use crate::bessel::bridge_hit_probability;
+use crate::disk_fast::DiskMap;
 use crate::error::{Error, Result};
 use crate::radial::RadialStep;
 use crate::rng::{self, Tag};
@@ -358,32 +359,33 @@ pub struct CleSample {
 
 /// A marked point carried by a branch: its image `w` in the branch frame and `log|g'(z)|`.
 #[derive(Debug, Clone, Copy)]
-struct Tracked {
-    id: usize,
-    w: Complex64,
-    ell: f64,
+pub(crate) struct Tracked {
+    pub(crate) id: usize,
+    pub(crate) w: Complex64,
+    pub(crate) ell: f64,
 }
 
 impl Tracked {
-    fn log_cr(&self) -> f64 {
+    /// `log CR(D_t, z) = log(1 − |w|²) − log|g_t'(z)|`.
+    pub(crate) fn log_cr(&self) -> f64 {
         let r = self.w.norm();
         ((1.0 - r) * (1.0 + r)).ln() - self.ell
     }
 }
 
 /// One branch of the exploration tree: force point at 1, tip at `e^{iθ}`, driver at 0.
-struct Branch {
-    theta: f64,
-    pts: Vec<Tracked>,
-    driver: usize,
-    rng: ChaCha8Rng,
+pub(crate) struct Branch {
+    pub(crate) theta: f64,
+    pub(crate) pts: Vec<Tracked>,
+    pub(crate) driver: usize,
+    pub(crate) rng: ChaCha8Rng,
     /// The points before the current step (reused buffer, so the hot loop does not allocate).
-    before: Vec<Tracked>,
+    pub(crate) before: Vec<Tracked>,
 }
 
 /// Harmonic measure, seen from `w`, of the boundary arc from the force point (angle 0) to the
 /// tip (angle θ), on the side given by the sign of θ.
-fn arc_measure(w: Complex64, theta: f64) -> f64 {
+pub(crate) fn arc_measure(w: Complex64, theta: f64) -> f64 {
     let m = |u: Complex64| (u - w) / (Complex64::new(1.0, 0.0) - w.conj() * u);
     let a = m(Complex64::new(1.0, 0.0)).arg();
     let b = m(Complex64::from_polar(1.0, theta)).arg();
@@ -396,8 +398,9 @@ fn arc_measure(w: Complex64, theta: f64) -> f64 {
 
 impl Branch {
     /// Move to the frame of point `k` (Möbius map sending `w_k` to 0, rotated so that the force
-    /// point is at 1) and make it the driver; θ becomes the point's own angle.
-    fn renormalise(&mut self, k: usize) {
+    /// point is at 1) and make it the driver; θ becomes the point's own angle. Returns the frame
+    /// change as a forward map (the identity when `k` is already at 0).
+    pub(crate) fn renormalise(&mut self, k: usize) -> DiskMap {
         let c = self.pts[k].w;
         let one = Complex64::new(1.0, 0.0);
         let tip = Complex64::from_polar(1.0, self.theta);
@@ -426,10 +429,11 @@ impl Branch {
             -(-b).rem_euclid(TWO_PI)
         };
         self.driver = k;
+        DiskMap::Mobius { c, rot }
     }
 
     /// The point with the fastest clock (largest Poisson kernel at the tip).
-    fn fastest(&self) -> (usize, f64) {
+    pub(crate) fn fastest(&self) -> (usize, f64) {
         let tip = Complex64::from_polar(1.0, self.theta);
         let mut best = (self.driver, 1.0);
         for (j, p) in self.pts.iter().enumerate() {
@@ -446,13 +450,18 @@ impl Branch {
     }
 
     /// Relabel the force point at the tip and restart θ at 0 (a loop has just closed around
-    /// the branch's points: its interior is explored afresh from the closing point).
-    fn restart_inside(&mut self) {
+    /// the branch's points: its interior is explored afresh from the closing point). Returns the
+    /// frame change (a rotation).
+    pub(crate) fn restart_inside(&mut self) -> DiskMap {
         let rot = Complex64::from_polar(1.0, -self.theta);
         for p in self.pts.iter_mut() {
             p.w *= rot;
         }
         self.theta = 0.0;
+        DiskMap::Mobius {
+            c: Complex64::new(0.0, 0.0),
+            rot,
+        }
     }
 }
 
@@ -842,7 +851,7 @@ impl CleExplorer {
 
 /// Split points that leave a branch together into groups that are still connected to each
 /// other (pseudo-hyperbolic closeness `1 − |φ_{w_j}(w_k)|` at least `pinch`).
-fn group_connected(pts: Vec<Tracked>, pinch: f64) -> Vec<Vec<Tracked>> {
+pub(crate) fn group_connected(pts: Vec<Tracked>, pinch: f64) -> Vec<Vec<Tracked>> {
     let n = pts.len();
     let mut label: Vec<usize> = (0..n).collect();
     for a in 0..n {
@@ -872,7 +881,7 @@ fn group_connected(pts: Vec<Tracked>, pinch: f64) -> Vec<Vec<Tracked>> {
 impl Branch {
     /// The point with the largest Poisson kernel at the tip, the driver included (used when
     /// the current driver is not a member, e.g. right after a split).
-    fn fastest_any(&self) -> usize {
+    pub(crate) fn fastest_any(&self) -> usize {
         let tip = Complex64::from_polar(1.0, self.theta);
         let mut best = (0usize, f64::NEG_INFINITY);
         for (j, p) in self.pts.iter().enumerate() {

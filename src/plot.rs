@@ -71,7 +71,7 @@ pub struct PlaneFigure {
     pub marks: Option<Vec<(f64, f64)>>,
 }
 
-fn out_err(path: &Path, e: impl std::fmt::Display) -> Error {
+pub(crate) fn out_err(path: &Path, e: impl std::fmt::Display) -> Error {
     Error::Output(format!("drawing {}: {e}", path.display()))
 }
 
@@ -280,7 +280,7 @@ impl PlaneFigure {
 
 /// Break caption lines at spaces so that none is longer than `width` characters.
 /// Something that renders itself on a drawing area at pixel scale `s` (1 for SVG, 2 for PNG).
-trait Render {
+pub(crate) trait Render {
     fn render<DB: DrawingBackend>(
         &self,
         root: &DrawingArea<DB, Shift>,
@@ -313,7 +313,7 @@ impl Render for PlaneJob<'_> {
 }
 
 /// The lower-case extension of a plot file, which must be `svg` or `png`.
-fn extension(path: &Path) -> Result<String> {
+pub(crate) fn extension(path: &Path) -> Result<String> {
     let ext = path
         .extension()
         .map(|e| e.to_string_lossy().to_lowercase())
@@ -331,7 +331,12 @@ fn extension(path: &Path) -> Result<String> {
 
 /// Render in memory (SVG text, or an RGB buffer at twice the size encoded as PNG), then write
 /// atomically (temporary file and rename), creating the parent folder.
-fn write_figure(path: &Path, ext: &str, (w, h): (u32, u32), job: &impl Render) -> Result<()> {
+pub(crate) fn write_figure(
+    path: &Path,
+    ext: &str,
+    (w, h): (u32, u32),
+    job: &impl Render,
+) -> Result<()> {
     ensure_fonts();
     if let Some(parent) = path.parent().filter(|p| !p.as_os_str().is_empty()) {
         std::fs::create_dir_all(parent).map_err(|e| out_err(path, e))?;
@@ -592,7 +597,7 @@ impl Render for LawJob<'_> {
     }
 }
 
-fn wrap_lines(lines: &[String], width: usize) -> Vec<String> {
+pub(crate) fn wrap_lines(lines: &[String], width: usize) -> Vec<String> {
     let mut out = Vec::new();
     for line in lines {
         let mut cur = String::new();

@@ -19,6 +19,8 @@ pub enum Tag {
     SeedDraw = 0x7365_6564_6472_6177,
     /// CLE explorations (one stream per branch of a sample's exploration tree).
     Cle = 0x636c_655f_6578_706c,
+    /// Whole CLE configurations (`loops`; one stream per branch).
+    Loops = 0x636c_655f_6c6f_6f70,
 }
 
 /// The generator of sample `index` of a run with `seed`, for purpose `tag`.

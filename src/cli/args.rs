@@ -34,8 +34,9 @@ pub struct Global {
     #[arg(long, global = true)]
     pub json: bool,
     /// Folder for the command's standard output files: trace.{csv,json,svg} for trace,
-    /// radii.json for radii, audit.{md,json} for audit, bench.json (bench-cle.json with --cle)
-    /// for bench, the gallery and report for the tour (default output/); laws only prints.
+    /// radii.json for radii, audit.{md,json} for audit, bench.json (bench-cle.json with --cle,
+    /// bench-radial.json with --radial) for bench, the gallery and report for the tour (default
+    /// output/); laws only prints.
     #[arg(long, global = true, value_name = "DIR")]
     pub out: Option<PathBuf>,
     /// No progress bars or notes on stderr (errors and warnings are still shown).
