@@ -432,6 +432,50 @@ impl Branch {
         DiskMap::Mobius { c, rot }
     }
 
+    /// Apply a step (its driving angle in the frame, force point at angle 0) to every point,
+    /// then rotate the frame so that the force point, moved to its image on `side` of the slit
+    /// base when it sits there, is at angle 0 again; θ becomes `theta`. Returns the rotation.
+    pub(crate) fn advance(&mut self, step: &RadialStep, side: f64, theta: f64) -> Complex64 {
+        let driver = self.driver;
+        for (j, p) in self.pts.iter_mut().enumerate() {
+            if j == driver {
+                p.ell += step.dt;
+            } else {
+                let (w, d) = step.forward_with_derivative(p.w);
+                p.w = w;
+                p.ell += d.norm().ln();
+            }
+        }
+        let eta = step.forward_boundary_angle(0.0, side);
+        let rot = Complex64::from_polar(1.0, -eta);
+        for p in self.pts.iter_mut() {
+            p.w *= rot;
+        }
+        self.pts[driver].w = Complex64::new(0.0, 0.0);
+        self.theta = theta;
+        rot
+    }
+
+    /// Non-driving points that leave after a step: `(pinched, broken)`, those closer to the
+    /// circle than `pinch` (pseudo-hyperbolic closeness to the driver) and those the step pushed
+    /// onto it (their state before the step is the one to keep).
+    pub(crate) fn leaving(&self, pinch: f64) -> (Vec<usize>, Vec<usize>) {
+        let mut pinched = Vec::new();
+        let mut broken = Vec::new();
+        for (j, p) in self.pts.iter().enumerate() {
+            if j == self.driver {
+                continue;
+            }
+            let r = p.w.norm();
+            if !(r < 1.0 && p.ell.is_finite()) {
+                broken.push(j);
+            } else if 1.0 - r < pinch {
+                pinched.push(j);
+            }
+        }
+        (pinched, broken)
+    }
+
     /// The point with the fastest clock (largest Poisson kernel at the tip).
     pub(crate) fn fastest(&self) -> (usize, f64) {
         let tip = Complex64::from_polar(1.0, self.theta);
@@ -713,23 +757,8 @@ impl CleExplorer {
             let st = self.process.step(br.theta, h, &mut br.rng);
             let step = RadialStep::new(st.theta, h);
             let driver = br.driver;
-            for (j, p) in br.pts.iter_mut().enumerate() {
-                if j == driver {
-                    p.ell += h;
-                } else {
-                    let (w, d) = step.forward_with_derivative(p.w);
-                    p.w = w;
-                    p.ell += d.norm().ln();
-                }
-            }
             let side = if st.theta >= 0.0 { -1.0 } else { 1.0 };
-            let eta = step.forward_boundary_angle(0.0, side);
-            let rot = Complex64::from_polar(1.0, -eta);
-            for p in br.pts.iter_mut() {
-                p.w *= rot;
-            }
-            br.pts[driver].w = Complex64::new(0.0, 0.0);
-            br.theta = st.theta;
+            br.advance(&step, side, st.theta);
             diag.steps += 1;
 
             // Pinched points: 1 − |w| is the pseudo-hyperbolic closeness of a point to the
@@ -738,20 +767,7 @@ impl CleExplorer {
             // each point's own law). Such points leave on their own branch with the state they have;
             // their own angle then decides, through the exact scheme, whether the region they
             // are in is a loop interior (θ ≈ 2π: the next step closes it) or not.
-            let mut pinched = Vec::new();
-            let mut broken = Vec::new();
-            for (j, p) in br.pts.iter().enumerate() {
-                if j == driver {
-                    continue;
-                }
-                let r = p.w.norm();
-                if !(r < 1.0 && p.ell.is_finite()) {
-                    // The step pushed the point onto the circle: keep its last valid state.
-                    broken.push(j);
-                } else if 1.0 - r < s.pinch {
-                    pinched.push(j);
-                }
-            }
+            let (mut pinched, broken) = br.leaving(s.pinch);
             let mut leaving: Vec<usize> = pinched.clone();
             leaving.extend(&broken);
             let mut inside = Vec::new();

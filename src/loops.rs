@@ -632,22 +632,7 @@ impl LoopSampler {
             let (xi, side) = slit_for_angle(a.theta, h);
             let step = RadialStep::new(xi, h);
             let driver = b.br.driver;
-            for (j, p) in b.br.pts.iter_mut().enumerate() {
-                if j == driver {
-                    p.ell += h;
-                } else {
-                    let (w, d) = step.forward_with_derivative(p.w);
-                    p.w = w;
-                    p.ell += d.norm().ln();
-                }
-            }
-            let eta = step.forward_boundary_angle(0.0, side);
-            let rot = Complex64::from_polar(1.0, -eta);
-            for p in b.br.pts.iter_mut() {
-                p.w *= rot;
-            }
-            b.br.pts[driver].w = Complex64::new(0.0, 0.0);
-            b.br.theta = a.theta;
+            let rot = b.br.advance(&step, side, a.theta);
             st.chains[b.chain].0.push(DiskMap::Step { step, rot });
             st.diag.steps += 1;
             if finishing {
@@ -671,19 +656,7 @@ impl LoopSampler {
 
             // Targets that left: pushed onto the circle by the step (kept with their state
             // before it) or pinched off from the driver.
-            let mut pinched = Vec::new();
-            let mut broken = Vec::new();
-            for (j, p) in b.br.pts.iter().enumerate() {
-                if j == driver {
-                    continue;
-                }
-                let r = p.w.norm();
-                if !(r < 1.0 && p.ell.is_finite()) {
-                    broken.push(j);
-                } else if 1.0 - r < s.pinch {
-                    pinched.push(j);
-                }
-            }
+            let (pinched, broken) = b.br.leaving(s.pinch);
             let mut leaving: Vec<usize> = pinched.clone();
             leaving.extend(&broken);
             let mut outside = Vec::new();
