@@ -98,6 +98,7 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
             "seed": seed,
             "time": time,
             "steps": steps,
+            "method": method.name(),
             "curves": curves.iter().map(|c| serde_json::json!({
                 "curve": c.index,
                 "t": c.times,
@@ -157,6 +158,7 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
         let rec = serde_json::json!({
             "format": "sleek/radial-trace-summary",
             "kappa": kappa, "rho": a.rho, "seed": seed, "time": time, "steps": steps,
+            "method": method.name(),
             "curves": curves.iter().map(|c| serde_json::json!({
                 "curve": c.index,
                 "end": [c.points.last().map(|z| z.re), c.points.last().map(|z| z.im)],
