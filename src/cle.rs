@@ -51,7 +51,7 @@
 use crate::bessel::bridge_hit_probability;
 use crate::disk_fast::DiskMap;
 use crate::error::{Error, Result};
-use crate::radial::RadialStep;
+use crate::radial::{FrameStep, RadialStep};
 use crate::rng::{self, Tag};
 use num_complex::Complex64;
 use rand::Rng;
@@ -435,11 +435,11 @@ impl Branch {
     /// Apply a step (its driving angle in the frame, force point at angle 0) to every point,
     /// then rotate the frame so that the force point, moved to its image on `side` of the slit
     /// base when it sits there, is at angle 0 again; θ becomes `theta`. Returns the rotation.
-    pub(crate) fn advance(&mut self, step: &RadialStep, side: f64, theta: f64) -> Complex64 {
+    pub(crate) fn advance<S: FrameStep>(&mut self, step: &S, side: f64, theta: f64) -> Complex64 {
         let driver = self.driver;
         for (j, p) in self.pts.iter_mut().enumerate() {
             if j == driver {
-                p.ell += step.dt;
+                p.ell += step.radial_time();
             } else {
                 let (w, d) = step.forward_with_derivative(p.w);
                 p.w = w;

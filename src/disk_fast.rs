@@ -31,7 +31,7 @@
 //! time, and a prefix of the chain (what a branch of a CLE exploration inherits) is always a
 //! union of completed blocks and at most seven loose maps.
 
-use crate::radial::RadialStep;
+use crate::radial::{RadialStep, TiltedRadialStep};
 use num_complex::Complex64;
 use std::f64::consts::TAU;
 
@@ -42,6 +42,14 @@ pub enum DiskMap {
     Step {
         /// The radial step.
         step: RadialStep,
+        /// Rotation applied after the step.
+        rot: Complex64,
+    },
+    /// A tilted radial step ([`TiltedRadialStep`], a slit that continues from a given boundary
+    /// point) followed by the rotation `rot`.
+    Tilted {
+        /// The step.
+        step: TiltedRadialStep,
         /// Rotation applied after the step.
         rot: Complex64,
     },
@@ -61,6 +69,7 @@ impl DiskMap {
     pub fn inverse(&self, z: Complex64) -> Complex64 {
         match *self {
             DiskMap::Step { step, rot } => step.inverse(z * rot.conj()),
+            DiskMap::Tilted { step, rot } => step.inverse(z * rot.conj()),
             DiskMap::Mobius { c, rot } => {
                 let u = z * rot.conj();
                 (u + c) / (1.0 + c.conj() * u)
@@ -72,6 +81,7 @@ impl DiskMap {
     pub fn forward_angle(&self, alpha: f64) -> f64 {
         match *self {
             DiskMap::Step { step, rot } => step.forward_boundary_angle(alpha, 1.0) + rot.arg(),
+            DiskMap::Tilted { step, rot } => step.forward_boundary_angle(alpha, 1.0) + rot.arg(),
             DiskMap::Mobius { c, rot } => {
                 let u = Complex64::from_polar(1.0, alpha);
                 ((u - c) / (1.0 - c.conj() * u) * rot).arg()
@@ -92,6 +102,13 @@ impl DiskMap {
                 Some(Arc {
                     start: step.xi + rot.arg() - half,
                     len: 2.0 * half,
+                })
+            }
+            DiskMap::Tilted { step, rot } => {
+                let (start, len) = step.preimage_arc();
+                Some(Arc {
+                    start: start + rot.arg(),
+                    len,
                 })
             }
             DiskMap::Mobius { .. } => None,
@@ -419,6 +436,7 @@ impl DiskChain {
     pub fn tip_point(&self, n: usize) -> Option<Complex64> {
         match self.maps.get(n)? {
             DiskMap::Step { step, .. } => Some(self.apply_prefix(n, step.tip())),
+            DiskMap::Tilted { step, .. } => Some(self.apply_prefix(n, step.tip())),
             DiskMap::Mobius { .. } => None,
         }
     }

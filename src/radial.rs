@@ -367,3 +367,139 @@ impl RadialSle {
         }
     }
 }
+
+/// A radial step whose slit starts at a given boundary point `e^{iβ}` and is straight in the
+/// Cayley frame of that point: the chordal tilted slit of Kager, Nienhuis & Kadanoff (J. Stat.
+/// Phys. 2004) from 0 at angle απ with capacity time `s`, followed by the affine map of H that
+/// sends the image of `i` (the image of 0) back to `i`, so that 0 stays fixed. Consecutive
+/// steps built on the previous tip make a continuous trace, which vertical slits (whose bases
+/// follow the driving point) do not.
+///
+/// Convention: the forward map `g` sends D minus the slit onto D with `g(0) = 0`; its radial
+/// time is `dt = log|g'(0)|` (DESIGN §2: `−log` of the conformal radius seen from 0), computed
+/// exactly from the construction rather than prescribed.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct TiltedRadialStep {
+    /// Angle β of the slit's base.
+    pub base: f64,
+    /// Radial time of the step, `log|g'(0)|`.
+    pub dt: f64,
+    rot: Complex64,
+    chordal: ChordalStep,
+    a: f64,
+    b: f64,
+}
+
+impl TiltedRadialStep {
+    /// The step from `e^{iβ}` whose Cayley-frame slit is the tilted slit with driving increment
+    /// `c√s` over capacity time `s > 0`.
+    pub fn new(base: f64, c: f64, s: f64) -> Self {
+        let chordal = ChordalStep::tilted(0.0, c * s.sqrt(), s);
+        let p = chordal.forward(I);
+        let (_, d) = chordal.inverse_with_derivative(p);
+        let dt = (1.0 / (d.norm() * p.im)).ln();
+        TiltedRadialStep {
+            base,
+            dt,
+            rot: Complex64::from_polar(1.0, base),
+            chordal,
+            a: p.re,
+            b: p.im,
+        }
+    }
+
+    /// The slit's tip, in the frame before the step.
+    pub fn tip(&self) -> Complex64 {
+        cayley_inv(self.chordal.tip()) * self.rot
+    }
+
+    /// The inverse map `f = g⁻¹`: D → D minus the slit.
+    pub fn inverse(&self, z: Complex64) -> Complex64 {
+        let v = cayley(z / self.rot) * self.b + self.a;
+        cayley_inv(self.chordal.inverse(v)) * self.rot
+    }
+
+    /// The forward map and its derivative `g'(w)` (chain rule through the Cayley maps).
+    pub fn forward_with_derivative(&self, w: Complex64) -> (Complex64, Complex64) {
+        let w1 = w / self.rot;
+        let zeta = cayley(w1);
+        let v = self.chordal.forward(zeta);
+        let (_, fd) = self.chordal.inverse_with_derivative(v);
+        let u = (v - self.a) / self.b;
+        let d =
+            (-2.0 * I / ((1.0 + w1) * (1.0 + w1))) / fd / self.b * (-2.0 * I / ((I + u) * (I + u)));
+        (cayley_inv(u) * self.rot, d)
+    }
+
+    /// Image of the boundary point `e^{iα}` as an angle within π of the base; `side` (±1)
+    /// decides the side for the base point itself.
+    pub fn forward_boundary_angle(&self, alpha: f64, side: f64) -> f64 {
+        let phi = (alpha - self.base + PI).rem_euclid(2.0 * PI) - PI;
+        let y = if phi == 0.0 {
+            let (lo, hi) = self.chordal.preimage_interval();
+            if side > 0.0 {
+                hi
+            } else {
+                lo
+            }
+        } else {
+            self.chordal.forward_real((0.5 * phi).tan())
+        };
+        self.base + 2.0 * ((y - self.a) / self.b).atan()
+    }
+
+    /// Angle of the new tip (the image of the slit's tip) after the step.
+    pub fn tip_angle_after(&self) -> f64 {
+        self.base + 2.0 * ((self.chordal_w_end() - self.a) / self.b).atan()
+    }
+
+    fn chordal_w_end(&self) -> f64 {
+        let (lo, hi) = self.chordal.preimage_interval();
+        // preimage = [W_end − x_l, W_end + x_r] with x_l/x_r = (1 − α)/α.
+        let al = self.chordal.alpha();
+        lo + (hi - lo) * (1.0 - al)
+    }
+
+    /// The arc of the output circle that is the preimage of the slit, as `(start, length)`.
+    pub fn preimage_arc(&self) -> (f64, f64) {
+        let (lo, hi) = self.chordal.preimage_interval();
+        let a0 = self.base + 2.0 * ((lo - self.a) / self.b).atan();
+        let a1 = self.base + 2.0 * ((hi - self.a) / self.b).atan();
+        (a0, a1 - a0)
+    }
+}
+
+/// What the CLE explorers need from a step in a branch's frame (radial time, forward map with
+/// derivative, boundary correspondence): implemented by [`RadialStep`] and [`TiltedRadialStep`].
+pub trait FrameStep {
+    /// Radial time of the step.
+    fn radial_time(&self) -> f64;
+    /// The forward map and its derivative.
+    fn forward_with_derivative(&self, w: Complex64) -> (Complex64, Complex64);
+    /// Image of a boundary angle; `side` decides the side of the slit's base.
+    fn forward_boundary_angle(&self, alpha: f64, side: f64) -> f64;
+}
+
+impl FrameStep for RadialStep {
+    fn radial_time(&self) -> f64 {
+        self.dt
+    }
+    fn forward_with_derivative(&self, w: Complex64) -> (Complex64, Complex64) {
+        RadialStep::forward_with_derivative(self, w)
+    }
+    fn forward_boundary_angle(&self, alpha: f64, side: f64) -> f64 {
+        RadialStep::forward_boundary_angle(self, alpha, side)
+    }
+}
+
+impl FrameStep for TiltedRadialStep {
+    fn radial_time(&self) -> f64 {
+        self.dt
+    }
+    fn forward_with_derivative(&self, w: Complex64) -> (Complex64, Complex64) {
+        TiltedRadialStep::forward_with_derivative(self, w)
+    }
+    fn forward_boundary_angle(&self, alpha: f64, side: f64) -> f64 {
+        TiltedRadialStep::forward_boundary_angle(self, alpha, side)
+    }
+}

@@ -149,3 +149,50 @@ fn radial_sle_kappa_6_minus_kappa_closes_loops_with_the_ssw_law() {
         }
     }
 }
+
+#[test]
+fn tilted_radial_step_fixes_0_and_continues_from_its_base() {
+    // Exact properties of the construction (no published value needed): the forward map fixes
+    // 0 with |g'(0)| = e^{dt}, inverts the inverse map, sends the slit's base neighbourhood to
+    // the two ends of the preimage arc, and the slit starts at e^{iβ}.
+    use num_complex::Complex64 as C;
+    use sleek::radial::TiltedRadialStep;
+    for &(beta, c, s) in &[
+        (0.3, 0.0, 1e-3),
+        (2.0, 1.5, 4e-4),
+        (-1.0, -3.0, 1e-2),
+        (4.0, 0.7, 1e-5),
+    ] {
+        let st = TiltedRadialStep::new(beta, c, s);
+        let (g0, d0) = st.forward_with_derivative(C::new(0.0, 0.0));
+        assert!(g0.norm() < 1e-13, "g(0) = {g0}");
+        assert!((d0.norm().ln() - st.dt).abs() < 1e-10);
+        // For c = 0 the step is the vertical radial slit of radial time −log(1 − 4s).
+        if c == 0.0 {
+            assert!((st.dt + (1.0 - 4.0 * s).ln()).abs() < 1e-12);
+        }
+        for z in [
+            C::new(0.3, -0.2),
+            C::new(-0.5, 0.6),
+            C::from_polar(0.99, beta + 1.0),
+        ] {
+            let w = st.inverse(z);
+            let (back, _) = st.forward_with_derivative(w);
+            assert!((back - z).norm() < 1e-11, "round trip at {z}: {back}");
+        }
+        // The slit runs from the base: the ends of the preimage arc go back to the base. The
+        // inverse map has a square-root singularity there, so rounding of 1e-12 in the angle
+        // shows as about 1e-6 in the point.
+        let (a0, len) = st.preimage_arc();
+        for a in [a0, a0 + len] {
+            let p = st.inverse(C::from_polar(1.0, a));
+            assert!(
+                (p - C::from_polar(1.0, beta)).norm() < 1e-5,
+                "β={beta} c={c}: {p}"
+            );
+        }
+        // The tip maps to the tip angle.
+        let (t, _) = st.forward_with_derivative(st.tip() * (1.0 - 1e-12));
+        assert!((t.arg() - C::from_polar(1.0, st.tip_angle_after()).arg()).abs() < 1e-4);
+    }
+}
