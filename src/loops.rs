@@ -959,8 +959,8 @@ mod tests {
 
     #[test]
     fn a_configuration_is_a_pure_function_of_seed_and_index() {
-        // One target (grid spacing 0.99 keeps only 0), κ = 3, ε = 0.3: small and fast.
-        let mut s = LoopSettings::defaults(0.3);
+        // One target (grid spacing 0.99 keeps only 0), κ = 3, ε = 0.6: small and fast.
+        let mut s = LoopSettings::defaults(0.6);
         s.grid = 0.99;
         let ls = LoopSampler::new(3.0, &[Complex64::new(0.2, 0.1)], s).unwrap();
         let a = ls.sample(7, 3);
