@@ -321,6 +321,17 @@ pub struct PointRecord {
 }
 
 impl PointRecord {
+    /// An empty record for the marked point `z` of the open disk.
+    pub fn new(z: Complex64) -> Self {
+        let r = z.norm();
+        PointRecord {
+            z: [z.re, z.im],
+            log_cr_disk: ((1.0 - r) * (1.0 + r)).ln(),
+            loops: Vec::new(),
+            censored: false,
+        }
+    }
+
     /// Normalised times `T_k = log CR(D, z) − log CR(loop_k)`, k = 1, 2, …
     pub fn times(&self) -> Vec<f64> {
         self.loops
@@ -603,19 +614,8 @@ impl CleExplorer {
     /// [`CleExplorer::sample`].
     pub fn sample_part(&self, seed: u64, index: u64, part: u32) -> CleSample {
         let base = (part as u64) << 40;
-        let mut records: Vec<PointRecord> = self
-            .points
-            .iter()
-            .map(|z| {
-                let r = z.norm();
-                PointRecord {
-                    z: [z.re, z.im],
-                    log_cr_disk: ((1.0 - r) * (1.0 + r)).ln(),
-                    loops: Vec::new(),
-                    censored: false,
-                }
-            })
-            .collect();
+        let mut records: Vec<PointRecord> =
+            self.points.iter().map(|&z| PointRecord::new(z)).collect();
         let mut diag = SampleDiagnostics::default();
         let mut next_loop: u64 = 0;
         let mut next_branch: u64 = base + 1;

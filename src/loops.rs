@@ -394,19 +394,7 @@ impl LoopSampler {
             lines: Vec::new(),
             around_cr: Vec::new(),
             done: Vec::new(),
-            records: self
-                .marked
-                .iter()
-                .map(|z| {
-                    let r = z.norm();
-                    PointRecord {
-                        z: [z.re, z.im],
-                        log_cr_disk: ((1.0 - r) * (1.0 + r)).ln(),
-                        loops: Vec::new(),
-                        censored: false,
-                    }
-                })
-                .collect(),
+            records: self.marked.iter().map(|&z| PointRecord::new(z)).collect(),
             retired: vec![false; all.len()],
             diag: LoopDiagnostics {
                 targets: all.len() as u64,
@@ -509,6 +497,35 @@ impl LoopSampler {
             }
         }
         true
+    }
+
+    /// New branches for targets that left `parent` together: one per group still connected to
+    /// each other ([`group_connected`]); see [`LoopSampler::spawn`] for the arguments.
+    #[allow(clippy::too_many_arguments)]
+    fn spawn_groups(
+        &self,
+        parent: &LBranch,
+        pts: Vec<Tracked>,
+        theta: f64,
+        prefix: usize,
+        exc: Option<u64>,
+        (depth, region): (u32, Option<u64>),
+        tips: (Complex64, Complex64),
+        st: &mut State,
+        seed: u64,
+        index: u64,
+    ) -> Vec<LBranch> {
+        if pts.is_empty() {
+            return Vec::new();
+        }
+        group_connected(pts, self.settings.pinch)
+            .into_iter()
+            .map(|g| {
+                self.spawn(
+                    parent, theta, g, prefix, exc, depth, region, tips, st, seed, index,
+                )
+            })
+            .collect()
     }
 
     /// A new branch for targets that left `parent` (frame with tip at angle `theta`, chain
@@ -709,42 +726,35 @@ impl LoopSampler {
                 }
             }
             let mut children: Vec<LBranch> = Vec::new();
-            if !broken.is_empty() {
-                let pts: Vec<Tracked> = broken.iter().map(|&j| before_pts[j]).collect();
-                for g in group_connected(pts, s.pinch) {
-                    children.push(self.spawn(
-                        b,
-                        theta_before,
-                        g,
-                        len_before,
-                        Some(exc),
-                        b.depth,
-                        b.region,
-                        (tip_before, tip_w_before),
-                        st,
-                        seed,
-                        index,
-                    ));
-                }
-            }
-            if !pinched.is_empty() {
-                let pts: Vec<Tracked> = pinched.iter().map(|&j| b.br.pts[j]).collect();
-                let len = st.chains[b.chain].0.len();
-                for g in group_connected(pts, s.pinch) {
-                    children.push(self.spawn(
-                        b,
-                        b.br.theta,
-                        g,
-                        len,
-                        Some(exc),
-                        b.depth,
-                        b.region,
-                        (tip, b.tip_w),
-                        st,
-                        seed,
-                        index,
-                    ));
-                }
+            let len = st.chains[b.chain].0.len();
+            let pick = |idx: &[usize], from: &[Tracked]| -> Vec<Tracked> {
+                idx.iter().map(|&j| from[j]).collect()
+            };
+            let (d, r) = (b.depth, b.region);
+            let groups = [
+                // Swept by the slit: their state before the step.
+                (
+                    pick(&broken, &before_pts),
+                    theta_before,
+                    len_before,
+                    (tip_before, tip_w_before),
+                ),
+                (pick(&pinched, &b.br.pts), b.br.theta, len, (tip, b.tip_w)),
+            ];
+            for (pts, theta, prefix, tips) in groups {
+                let kids = self.spawn_groups(
+                    b,
+                    pts,
+                    theta,
+                    prefix,
+                    Some(exc),
+                    (d, r),
+                    tips,
+                    st,
+                    seed,
+                    index,
+                );
+                children.extend(kids);
             }
             // The loop in progress continues in one branch only: the one whose θ is furthest
             // from its ends (the others were cut off from the rest of the loop).
@@ -763,26 +773,21 @@ impl LoopSampler {
                     children[i].owns = true;
                 }
             }
-            if !outside.is_empty() {
-                // Outside the loop that closes around the driver: the loop is finished for them.
-                let pts: Vec<Tracked> = outside.iter().map(|&j| b.br.pts[j]).collect();
-                let len = st.chains[b.chain].0.len();
-                for g in group_connected(pts, s.pinch) {
-                    children.push(self.spawn(
-                        b,
-                        b.br.theta,
-                        g,
-                        len,
-                        None,
-                        b.depth,
-                        b.region,
-                        (tip, b.tip_w),
-                        st,
-                        seed,
-                        index,
-                    ));
-                }
-            }
+            // Outside the loop that closes around the driver: the loop is finished for them.
+            let pts = pick(&outside, &b.br.pts);
+            let kids = self.spawn_groups(
+                b,
+                pts,
+                b.br.theta,
+                len,
+                None,
+                (d, r),
+                (tip, b.tip_w),
+                st,
+                seed,
+                index,
+            );
+            children.extend(kids);
             spawned.extend(children);
 
             match a.visit {
