@@ -41,6 +41,7 @@ pub mod domain;
 pub mod driving;
 pub mod error;
 pub mod fast;
+pub mod forward_tree;
 pub mod io;
 pub mod laws;
 pub mod loewner;
@@ -54,5 +55,6 @@ pub mod rng;
 pub mod sle;
 pub mod special;
 pub mod stats;
+pub mod unzip;
 
 pub use error::{Error, Result};

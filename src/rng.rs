@@ -21,6 +21,10 @@ pub enum Tag {
     Cle = 0x636c_655f_6578_706c,
     /// Whole CLE configurations (`loops`; one stream per branch).
     Loops = 0x636c_655f_6c6f_6f70,
+    /// Lattice reference models (`lattice`; one stream per sample).
+    Lattice = 0x6c61_7474_6963_6501,
+    /// Bootstrap resampling of estimators (`measure`).
+    Bootstrap = 0x626f_6f74_7374_7201,
 }
 
 /// The generator of sample `index` of a run with `seed`, for purpose `tag`.
