@@ -165,7 +165,7 @@ impl ForwardChain {
             coeffs: vec![0.0; TERMS],
             has_series: false,
         };
-        if !self.series || !(radius > 0.0 && radius.is_finite()) {
+        if !(self.series && radius > 0.0 && radius.is_finite()) {
             return block;
         }
         for _ in 0..4 {

@@ -123,7 +123,7 @@ impl ChordalUnzip {
         let mut w = 0.0;
         for (i, &z) in points.iter().enumerate().skip(1) {
             let p = chain.map_next_point(z);
-            if !(p.im > ON_BOUNDARY * (1.0 + p.norm())) || !p.re.is_finite() {
+            if p.im.is_nan() || p.im <= ON_BOUNDARY * (1.0 + p.norm()) || !p.re.is_finite() {
                 skipped.push(i);
                 continue;
             }
@@ -212,7 +212,7 @@ pub fn unzip_radial(points: &[Complex64], slit: StepKind) -> Result<Unzipped> {
     let mut t = 0.0;
     for i in 1..points.len() {
         let p = cur[i];
-        if !(1.0 - p.norm() > ON_BOUNDARY) {
+        if p.norm().is_nan() || 1.0 - p.norm() <= ON_BOUNDARY {
             skipped.push(i);
             continue;
         }

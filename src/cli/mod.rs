@@ -6,7 +6,9 @@ mod args;
 mod audit_cmd;
 mod bench_cmd;
 mod common;
+mod lattice_cmd;
 mod laws_cmd;
+mod measure_cmd;
 mod radial_trace;
 mod radii_cmd;
 mod tour;
@@ -79,6 +81,8 @@ pub fn main() -> ExitCode {
         Some(Command::Audit(a)) => audit_cmd::run(&cli.global, a),
         Some(Command::Radii(a)) => radii_cmd::run(&cli.global, a),
         Some(Command::Bench(a)) => bench_cmd::run(&cli.global, a),
+        Some(Command::Measure(a)) => measure_cmd::run(&cli.global, a),
+        Some(Command::Lattice(a)) => lattice_cmd::run(&cli.global, a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
