@@ -380,6 +380,14 @@ pub fn disk_to_half_plane(a: Complex64, b: Complex64) -> impl Fn(Complex64) -> C
     move |z| u * k * m(z)
 }
 
+/// The inverse of [`disk_to_half_plane`]: H onto the unit disk, 0 ↦ `a`, ∞ ↦ `b`.
+pub fn half_plane_to_disk(a: Complex64, b: Complex64) -> impl Fn(Complex64) -> Complex64 {
+    let f = disk_to_half_plane(a, b);
+    // f(z) = U (z − a)/(z − b) with U = f(0)·b/a (from z = 0), so z = (w b − U a)/(w − U).
+    let u = f(Complex64::new(0.0, 0.0)) * b / a;
+    move |w| (w * b - u * a) / (w - u)
+}
+
 /// The first self-crossing of a polyline found, as (segment i, segment j > i + 1, point), using
 /// a uniform grid of cells about the mean segment length (segments sharing an end point are not
 /// compared). Returns `None` for a simple polyline.

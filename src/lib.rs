@@ -49,6 +49,7 @@ pub mod laws;
 pub mod loewner;
 pub mod loops;
 pub mod measure;
+pub mod measure_run;
 pub mod plot;
 pub mod plot_loops;
 pub mod plot_measure;

@@ -74,14 +74,15 @@ pub struct KappaSettings {
     pub seed: u64,
 }
 
-/// Geometric lags from `min_lag` up to a twentieth of the shortest curve's time, by factors of 2
-/// (at most 12). `min_lag` should be several times the Loewner time of one lattice step.
+/// Geometric lags from `min_lag` up to a fifth of the median curve's time, by factors of 2
+/// (at most 12); curves too short for two blocks of the largest lag are then left out by
+/// [`estimate_kappa`]. `min_lag` should be far above the Loewner time of one lattice step:
+/// lattice curves keep a visible bias up to a few hundred steps (see [`mean_step`]).
 pub fn default_lags(curves: &[DrivingData], min_lag: f64) -> Vec<f64> {
-    let shortest = curves
-        .iter()
-        .map(|c| c.final_time())
-        .fold(f64::INFINITY, f64::min);
-    let top = shortest / 20.0;
+    let mut ts: Vec<f64> = curves.iter().map(|c| c.final_time()).collect();
+    ts.sort_by(f64::total_cmp);
+    let median = ts.get(ts.len() / 2).copied().unwrap_or(0.0);
+    let top = median / 5.0;
     let mut lags = Vec::new();
     let mut s = min_lag;
     while s <= top && lags.len() < 12 {
@@ -89,6 +90,19 @@ pub fn default_lags(curves: &[DrivingData], min_lag: f64) -> Vec<f64> {
         s *= 2.0;
     }
     lags
+}
+
+/// The mean Loewner time per step over all curves (total time over total steps): the lattice
+/// scale on the Loewner clock. (The median is much smaller for lattice curves, whose many steps
+/// along fjords and earlier parts of the curve add almost no capacity.)
+pub fn mean_step(curves: &[DrivingData]) -> f64 {
+    let t: f64 = curves.iter().map(|c| c.final_time()).sum();
+    let n: usize = curves.iter().map(|c| c.times.len().saturating_sub(1)).sum();
+    if n == 0 {
+        0.0
+    } else {
+        t / n as f64
+    }
 }
 
 /// The median Loewner time of one step over all curves (a proxy for the lattice scale).

@@ -105,7 +105,7 @@ impl Render for Job<'_> {
                 .y_label_area_size(f(55))
                 .build_cartesian_2d(lo..hi, 0.0..0.5)?;
             ch.configure_mesh()
-                .x_desc("ΔW / √(κ̂ s)")
+                .x_desc("ΔW / √(κ s)")
                 .y_desc("density")
                 .label_style(("sans-serif", f(12)))
                 .draw()?;
@@ -146,14 +146,16 @@ impl Render for Job<'_> {
             }
             let pad = 0.1 * (y1 - y0).max(0.1);
             let mut ch = ChartBuilder::on(&panels[2])
-                .caption("κ̂ against the lag (±2 s.e.)", font.clone())
+                .caption("κ estimate against the lag (±2 s.e.)", font.clone())
                 .margin(f(10))
                 .x_label_area_size(f(40))
                 .y_label_area_size(f(55))
                 .build_cartesian_2d((l0..l1).log_scale(), (y0 - pad)..(y1 + pad))?;
             ch.configure_mesh()
                 .x_desc("lag s")
-                .y_desc("κ̂(s)")
+                .y_desc("κ(s)")
+                .x_labels(4)
+                .x_label_formatter(&|v| format!("{v:.0e}"))
                 .label_style(("sans-serif", f(12)))
                 .draw()?;
             ch.draw_series(std::iter::once(Rectangle::new(
@@ -182,6 +184,8 @@ impl Render for Job<'_> {
                     .map(|r| Circle::new((r.lag, r.kappa), 3 * s, PALETTE[1].filled())),
             )?;
             ch.configure_series_labels()
+                .position(SeriesLabelPosition::UpperLeft)
+                .background_style(WHITE.mix(0.8))
                 .border_style(BLACK)
                 .label_font(("sans-serif", f(12)))
                 .draw()?;
@@ -192,7 +196,7 @@ impl Render for Job<'_> {
                 k.estimate, 100.0 * k.level, k.ci[0], k.ci[1], k.bootstrap, k.block, k.curves
             ),
             format!(
-                "Normality at lag {:.2e}: KS distance {:.4}, p = {:.3} (conservative). A trend of κ̂ with the lag shows lattice or discretisation effects.",
+                "Normality at lag {:.2e}: KS distance {:.4}, p = {:.3} (conservative). A trend of κ(s) with the lag shows lattice or discretisation effects.",
                 k.normality.lag, k.normality.ks_statistic, k.normality.ks_p_value
             ),
         ];

@@ -143,12 +143,17 @@ pub struct MeasureArgs {
     /// in a jagged disk); farther ones are an error.
     #[arg(long, default_value = "0.01", value_parser = parse_fraction)]
     pub boundary_tolerance: f64,
+    /// Disk: use each curve while the map to H stretches lengths by at most this factor
+    /// relative to the start (the lattice scale then stays uniform on the Loewner clock).
+    #[arg(long, default_value = "2", value_parser = parse_positive)]
+    pub max_distortion: f64,
     /// Longer curves are thinned to this many points (every k-th point kept, reported): the
     /// unzip costs about 0.25 ms per point.
     #[arg(long, default_value = "20000", value_parser = parse_count)]
     pub max_points: u64,
-    /// Smallest lag (Loewner time); default 10 × the median Loewner time of one step (the
-    /// lattice scale).
+    /// Smallest lag (Loewner time); default 100 h², the Loewner time of a slit 20 median
+    /// segment lengths h long (lattice curves keep a visible bias well above one step; the
+    /// table of κ against the lag shows it). Lags double up to a fifth of the median curve's Loewner time.
     #[arg(long, value_parser = parse_positive)]
     pub min_lag: Option<f64>,
     /// Bootstrap replicates.

@@ -4,14 +4,9 @@ use super::args::{CurveDomainArg, Global, MeasureArgs, StepArg};
 use super::common::{check_plot_path, note, resolve_seed, warn, write_file};
 use super::Failure;
 use num_complex::Complex64;
-use rayon::prelude::*;
-use sleek::curve::{parse_curves, prepare_with, CurveDomain, PreparedCurve};
-use sleek::loewner::{Method, StepKind};
-use sleek::measure::{
-    default_lags, estimate_kappa, left_passage_angles, left_passage_kappa, median_step,
-    DrivingData, KappaSettings,
-};
-use sleek::unzip::{unzip_radial, ChordalUnzip, Unzipped};
+use sleek::curve::parse_curves;
+use sleek::loewner::StepKind;
+use sleek::measure_run::{measure_curves, Frame, MeasureSettings};
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
@@ -32,13 +27,6 @@ fn read(path: &Path) -> Result<Vec<Vec<Complex64>>, Failure> {
     let text = std::fs::read_to_string(path)
         .map_err(|e| Failure::Runtime(format!("cannot read {}: {e}", path.display())))?;
     parse_curves(&text).map_err(|e| Failure::Runtime(format!("{}: {e}", path.display())))
-}
-
-struct Measured {
-    file: String,
-    prepared: PreparedCurve,
-    unzip: Unzipped,
-    sides: Vec<(f64, bool)>,
 }
 
 pub fn run(g: &Global, a: &MeasureArgs) -> Result<(), Failure> {
@@ -84,119 +72,47 @@ pub fn run(g: &Global, a: &MeasureArgs) -> Result<(), Failure> {
     }
     let seed = resolve_seed(g);
     let started = std::time::Instant::now();
-    let measured: Vec<Result<Measured, Failure>> = inputs
-        .par_iter()
-        .map(|(name, pts)| {
-            let dom = match domain {
-                None => CurveDomain::HalfPlane,
-                Some(false) => CurveDomain::Disk {
-                    target: a
-                        .target_angle
-                        .unwrap_or_else(|| pts.last().map(|z| z.arg()).unwrap_or(0.0)),
-                },
-                Some(true) => CurveDomain::DiskRadial {
-                    target: a.target.unwrap_or((0.0, 0.0)),
-                },
-            };
-            let stride = pts.len().div_ceil(a.max_points.max(2) as usize).max(1);
-            let thinned: Vec<Complex64> = if stride > 1 {
-                let mut v: Vec<Complex64> = pts.iter().step_by(stride).cloned().collect();
-                if (pts.len() - 1) % stride != 0 {
-                    v.push(pts[pts.len() - 1]);
-                }
-                v
-            } else {
-                pts.clone()
-            };
-            let pts = &thinned;
-            let prepared = prepare_with(pts, dom, a.boundary_tolerance)
-                .map_err(|e| Failure::Runtime(format!("{name}: {e}")))?;
-            let (unzip, sides) = if domain == Some(true) {
-                let u = unzip_radial(&prepared.points, slit)
-                    .map_err(|e| Failure::Runtime(format!("{name}: {e}")))?;
-                (u, Vec::new())
-            } else {
-                let u = ChordalUnzip::new(&prepared.points, slit, Method::Fast)
-                    .map_err(|e| Failure::Runtime(format!("{name}: {e}")))?;
-                // Left passage at points r·e^{iφ}: fixed radii for disk curves (mapped so the
-                // centre has modulus 1), radii relative to the curve's extent in H.
-                let radii: Vec<f64> = if domain.is_some() {
-                    vec![0.25, 0.5, 1.0, 2.0, 4.0]
-                } else {
-                    let l = prepared.points.iter().map(|z| z.norm()).fold(0.0, f64::max);
-                    [1.0 / 64.0, 1.0 / 32.0, 1.0 / 16.0, 1.0 / 8.0]
-                        .iter()
-                        .map(|f| f * l)
-                        .collect()
-                };
-                let mut sides = Vec::new();
-                for &phi in &left_passage_angles() {
-                    for &r in &radii {
-                        sides.push((phi, u.passes_left_of(Complex64::from_polar(r, phi))));
-                    }
-                }
-                (u.result, sides)
-            };
-            Ok(Measured {
-                file: name.clone(),
-                prepared,
-                unzip,
-                sides,
-            })
-        })
-        .collect();
-    let measured: Vec<Measured> = measured.into_iter().collect::<Result<_, _>>()?;
+    let settings = MeasureSettings {
+        frame: match a.domain {
+            CurveDomainArg::HalfPlane => Frame::HalfPlane,
+            CurveDomainArg::Disk => Frame::Disk(a.target_angle),
+            CurveDomainArg::DiskRadial => Frame::DiskRadial(a.target.unwrap_or((0.0, 0.0))),
+        },
+        slit,
+        boundary_tolerance: a.boundary_tolerance,
+        max_points: usize::try_from(a.max_points).unwrap_or(usize::MAX),
+        max_distortion: a.max_distortion,
+        min_lag: a.min_lag,
+        bootstrap: a.bootstrap as usize,
+        level: a.level,
+        seed,
+    };
+    let report = measure_curves(&inputs, &settings)?;
+    let unzip_seconds = started.elapsed().as_secs_f64();
     let longest = inputs.iter().map(|(_, p)| p.len()).max().unwrap_or(0);
     if longest as u64 > a.max_points {
         note(g, &format!("curves longer than --max-points {} were thinned (every k-th point kept; longest had {longest} points)", a.max_points));
     }
-    let unzip_seconds = started.elapsed().as_secs_f64();
-    for m in &measured {
-        if let Some((i, j, x, y)) = m.prepared.crossing {
+    for m in &report.curves {
+        if let Some((i, j, x, y)) = m.preparation.crossing {
             warn(&format!(
                 "{}: the curve crosses itself (segments {i} and {j}, near ({x:.6}, {y:.6})); the unzip treats what follows as seen from the crossing",
-                m.file
+                m.name
             ));
         }
         if !m.unzip.skipped.is_empty() {
             note(g, &format!(
                 "{}: {} points were on the boundary or on the curve already removed and were skipped (first: input point {})",
-                m.file, m.unzip.skipped.len(), m.prepared.input_index.get(m.unzip.skipped[0]).copied().unwrap_or(0)
+                m.name, m.unzip.skipped.len(), m.preparation.input_index.get(m.unzip.skipped[0]).copied().unwrap_or(0)
             ));
         }
     }
-    let data: Vec<DrivingData> = measured
-        .iter()
-        .map(|m| DrivingData {
-            times: &m.unzip.times,
-            values: &m.unzip.driving,
-        })
-        .collect();
-    let step = median_step(&data);
-    let min_lag = a.min_lag.unwrap_or(10.0 * step);
-    let lags = default_lags(&data, min_lag);
-    let settings = KappaSettings {
-        lags,
-        bootstrap: a.bootstrap as usize,
-        level: a.level,
-        seed,
-    };
-    let kappa = estimate_kappa(&data, &settings)?;
-    let chordal_sides: Vec<Vec<(f64, bool)>> = measured
-        .iter()
-        .filter(|m| !m.sides.is_empty())
-        .map(|m| m.sides.clone())
-        .collect();
-    let lp = if chordal_sides.len() >= 2 {
-        Some(left_passage_kappa(
-            &chordal_sides,
-            a.bootstrap as usize,
-            a.level,
-            seed,
-        )?)
-    } else {
-        None
-    };
+    let data = report.driving_data();
+    let kappa = &report.kappa;
+    let lp = &report.left_passage;
+    let step = report.mean_step;
+    let h = report.median_segment;
+    let measured = &report.curves;
     if let Some(p) = &a.export_csv {
         let mut s = String::from("curve,t,w\n");
         for (k, m) in measured.iter().enumerate() {
@@ -207,13 +123,13 @@ pub fn run(g: &Global, a: &MeasureArgs) -> Result<(), Failure> {
         write_file(p, s.as_bytes())?;
     }
     if let Some(p) = &a.plot {
-        sleek::plot_measure::draw(p, &data, &kappa, a.domain == CurveDomainArg::DiskRadial)?;
+        sleek::plot_measure::draw(p, &data, kappa, a.domain == CurveDomainArg::DiskRadial)?;
     }
     let curves_json: Vec<serde_json::Value> = measured
         .iter()
         .map(|m| {
             serde_json::json!({
-                "file": m.file, "preparation": m.prepared, "steps": m.unzip.steps(),
+                "file": m.name, "preparation": m.preparation, "stride": m.stride, "median_segment": m.spacing, "steps": m.unzip.steps(),
                 "skipped": m.unzip.skipped.len(), "final_time": m.unzip.final_time(),
             })
         })
@@ -230,7 +146,7 @@ pub fn run(g: &Global, a: &MeasureArgs) -> Result<(), Failure> {
             "kappa": {"estimate": kappa.estimate, "ci": kappa.ci, "level": kappa.level, "method": kappa.method},
             "left_passage": lp,
             "curves": curves_json,
-            "diagnostics": {"median_step_time": step, "lags": kappa.lags, "normality": kappa.normality,
+            "diagnostics": {"mean_step_time": step, "median_segment": h, "lags": kappa.lags, "normality": kappa.normality,
                 "bootstrap": kappa.bootstrap, "block": kappa.block, "warnings": kappa.warnings},
             "seconds_unzip": unzip_seconds,
         });
@@ -246,10 +162,12 @@ pub fn run(g: &Global, a: &MeasureArgs) -> Result<(), Failure> {
         unzip_seconds
     );
     println!(
-        "lattice scale    median step {:.3e}; lags from {:.3e} to {:.3e} (×2)",
+        "resolution       median segment {:.3e} (unzipping frame{}), {:.3e} Loewner time per step; lags {:.3e} to {:.3e} (×2)",
+        h,
+        if domain == Some(true) { ", at the last time used" } else { "" },
         step,
-        settings.lags.first().unwrap_or(&0.0),
-        settings.lags.last().unwrap_or(&0.0)
+        kappa.lags.first().map(|r| r.lag).unwrap_or(0.0),
+        kappa.lags.last().map(|r| r.lag).unwrap_or(0.0)
     );
     println!(
         "κ (quadratic variation)  {:.3}   {:.0}% CI [{:.3}, {:.3}]   (blocked bootstrap, {} replicates, blocks of {:.3e})",
