@@ -317,10 +317,11 @@ fn tilted_forward(v: Complex64, alpha: f64, xl: f64, xr: f64, len: f64) -> Compl
     let shift = (1.0 - alpha) * xl - alpha * xr;
     let dt = xl * xr / 4.0; // x_l x_r = 4Δt
     let far_guess = |v: Complex64| v - shift + 2.0 * dt / v;
-    if v.norm() > 4.0 * len {
-        if let Some(u) = newton_log(v.ln(), far_guess(v), alpha, xl, xr) {
-            return u;
-        }
+    // Φ is one-to-one on the closed upper half-plane and a solution is accepted only at rounding
+    // level, so a direct Newton solve from the far-field guess is safe near the slit too; it
+    // usually converges, and the continuation below is the fallback.
+    if let Some(u) = newton_log(v.ln(), far_guess(v), alpha, xl, xr) {
+        return u;
     }
     let r_target = v.norm();
     if r_target == 0.0 {

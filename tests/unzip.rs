@@ -164,3 +164,35 @@ fn points_below_the_line_are_rejected() {
     assert!(e.to_string().contains("point 2"), "{e}");
     let _ = DrivingFunction::from_fn(1.0, 4, |_| 0.0).unwrap();
 }
+
+/// A semicircular arc from 0 over the half-disk of centre −r, radius r, ending on the real line at
+/// −2r, swallows the half-disk: its hull's map is `g(z) = z + r²/(z + r)` (Joukowski, common
+/// practice), so hcap = r², the final capacity time is r²/2, and the tip goes to
+/// W_T = g(−2r) = −3r. Unzipped from points on the arc (the last one, on the real line, is
+/// skipped as a boundary point), T and W_T converge to these values: the error at 4000 points is
+/// below 2e-3 relative and smaller than at 500 points.
+#[test]
+fn semicircle_swallowing_a_half_disk() {
+    let r = 1.5;
+    let err = |n: usize| {
+        let pts: Vec<C> = (0..=n)
+            .map(|k| {
+                let th = std::f64::consts::PI * k as f64 / n as f64;
+                C::new(-r + r * th.cos(), r * th.sin())
+            })
+            .map(|z| C::new(z.re, z.im.max(0.0)))
+            .collect();
+        let mut pts = pts;
+        pts[0] = C::new(0.0, 0.0);
+        let u = ChordalUnzip::new(&pts, StepKind::Tilted, Method::Fast)
+            .unwrap()
+            .result;
+        assert_eq!(u.skipped, vec![n], "only the end point is on the line");
+        let t = u.final_time();
+        let w = *u.driving.last().unwrap();
+        ((t - r * r / 2.0).abs() / (r * r / 2.0)).max((w + 3.0 * r).abs() / (3.0 * r))
+    };
+    let (e1, e2) = (err(500), err(4000));
+    assert!(e2 < 2e-3, "relative error {e2:e} at 4000 points");
+    assert!(e2 < e1, "{e1:e} → {e2:e}");
+}
