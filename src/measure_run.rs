@@ -26,7 +26,7 @@ use rayon::prelude::*;
 use serde::Serialize;
 
 /// Which frame the curves are unzipped in.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum Frame {
     /// Chordal in H from the real line to ∞.
@@ -36,6 +36,18 @@ pub enum Frame {
     Disk(Option<f64>),
     /// Radial in the unit disk towards this interior point.
     DiskRadial((f64, f64)),
+    /// Chordal in the polygon with these vertices, from the first point to `target` (None: the
+    /// last point), both projected onto the boundary; mapped onto H by the zipper
+    /// ([`crate::polygon::PolygonToHalfPlane`], 16 pieces per edge) with the polygon's vertex
+    /// centroid (or the curve's middle point, when the centroid is outside) sent to modulus 1.
+    /// The curve is used while lengths are stretched by at most `max_distortion` relative to
+    /// its second point; no left-passage estimate in this frame (it needs the whole curve).
+    Polygon {
+        /// Vertices, in order (either orientation).
+        vertices: Vec<(f64, f64)>,
+        /// The target boundary point.
+        target: Option<(f64, f64)>,
+    },
 }
 
 /// Settings of a measurement.
@@ -124,12 +136,60 @@ pub fn measure_curves(
     let measured: Vec<Result<MeasuredCurve>> = inputs
         .par_iter()
         .map(|(name, pts)| {
-            let dom = match a.frame {
-                Frame::HalfPlane => CurveDomain::HalfPlane,
+            let polygon_points;
+            let pts = if let Frame::Polygon { vertices, target } = &a.frame {
+                let v: Vec<Complex64> = vertices
+                    .iter()
+                    .map(|&(x, y)| Complex64::new(x, y))
+                    .collect();
+                let start = pts[0];
+                let end = target
+                    .map(|(x, y)| Complex64::new(x, y))
+                    .unwrap_or(pts[pts.len() - 1]);
+                let centroid = v.iter().sum::<Complex64>() / v.len().max(1) as f64;
+                let reference = if winding_number(&v, centroid) != 0 {
+                    centroid
+                } else {
+                    pts[pts.len() / 2]
+                };
+                let map = crate::polygon::PolygonToHalfPlane::new(&v, start, end, reference, 16)
+                    .map_err(|e| name_err(name, e))?;
+                let mut out = Vec::with_capacity(pts.len());
+                out.push(Complex64::new(0.0, 0.0));
+                let mut d_start = None;
+                for (k, &z) in pts.iter().enumerate().skip(1) {
+                    if z == end && k + 1 == pts.len() {
+                        break; // the target itself goes to ∞
+                    }
+                    match map.map_with_derivative(z) {
+                        Some((w, d)) => {
+                            // As for the disk: stop where lengths are stretched by more than
+                            // max_distortion relative to the start.
+                            let d0 = *d_start.get_or_insert(d.norm());
+                            if d.norm() > a.max_distortion * d0 {
+                                break;
+                            }
+                            out.push(w)
+                        }
+                        None => {
+                            return Err(Error::InvalidData(format!(
+                                "{name}: point {k} = ({}, {}) is not inside the domain",
+                                z.re, z.im
+                            )))
+                        }
+                    }
+                }
+                polygon_points = out;
+                &polygon_points
+            } else {
+                pts
+            };
+            let dom = match &a.frame {
+                Frame::HalfPlane | Frame::Polygon { .. } => CurveDomain::HalfPlane,
                 Frame::Disk(t) => CurveDomain::Disk {
                     target: t.unwrap_or_else(|| pts.last().map(|z| z.arg()).unwrap_or(0.0)),
                 },
-                Frame::DiskRadial(c) => CurveDomain::DiskRadial { target: c },
+                Frame::DiskRadial(c) => CurveDomain::DiskRadial { target: *c },
             };
             let stride = pts.len().div_ceil(a.max_points.max(2)).max(1);
             let thinned: Vec<Complex64> = if stride > 1 {
@@ -225,9 +285,11 @@ pub fn measure_curves(
                     .map(|f| f * l)
                     .collect();
                 let mut sides = Vec::new();
-                for &phi in &left_passage_angles() {
-                    for &r in &radii {
-                        sides.push((phi, u.passes_left_of(Complex64::from_polar(r, phi))));
+                if !matches!(a.frame, Frame::Polygon { .. }) {
+                    for &phi in &left_passage_angles() {
+                        for &r in &radii {
+                            sides.push((phi, u.passes_left_of(Complex64::from_polar(r, phi))));
+                        }
                     }
                 }
                 (u.result, sides, None)

@@ -130,12 +130,13 @@ pub fn conformal_radius(
             "a point inside the loop",
         ));
     }
-    // Start the zipper at the vertex farthest from z0, so the closing edge's remainder is far.
-    let far = (0..v.len())
-        .max_by(|&a, &b| (v[a] - z0).norm().total_cmp(&(v[b] - z0).norm()))
+    // Start the zipper at the vertex nearest z0: parts of the loop behind narrow necks (lattice
+    // loops have many) are then crowded, not z0 itself, whose image would otherwise underflow.
+    let start = (0..v.len())
+        .min_by(|&a, &b| (v[a] - z0).norm().total_cmp(&(v[b] - z0).norm()))
         .unwrap_or(0);
     let mut w = v.clone();
-    w.rotate_left(far);
+    w.rotate_left(start);
     let coarse = zipper_radius(&w, z0, refine)?;
     let (fine, n) = zipper_radius_counted(&w, z0, 2 * refine)?;
     Ok(RadiusEstimate {
@@ -163,11 +164,11 @@ pub fn conformal_radius_extrapolated(
     }
     let first = conformal_radius(vertices, z0, refine)?;
     let v = clean_polygon(vertices)?;
-    let far = (0..v.len())
-        .max_by(|&a, &b| (v[a] - z0).norm().total_cmp(&(v[b] - z0).norm()))
+    let start = (0..v.len())
+        .min_by(|&a, &b| (v[a] - z0).norm().total_cmp(&(v[b] - z0).norm()))
         .unwrap_or(0);
     let mut w = v.clone();
-    w.rotate_left(far);
+    w.rotate_left(start);
     let r1 = zipper_radius(&w, z0, refine)?;
     let r2 = first.value;
     let (r3, n) = zipper_radius_counted(&w, z0, 4 * refine)?;
@@ -193,58 +194,237 @@ fn zipper_radius(v: &[Complex64], z0: Complex64, refine: usize) -> Result<f64> {
 }
 
 fn zipper_radius_counted(v: &[Complex64], z0: Complex64, refine: usize) -> Result<(f64, usize)> {
-    let n = v.len();
-    let (v0, v1) = (v[0], v[1]);
-    // Boundary points after v_1, in order, ending on the closing edge towards v_0.
-    let mut pts: Vec<Complex64> = Vec::with_capacity(n * refine + CLOSING_POINTS as usize);
-    for k in 1..n {
-        let (a, b) = (v[k], v[(k + 1) % n]);
-        let pieces = refine;
-        for j in 1..=pieces {
-            if k == n - 1 && j == pieces {
-                break; // v_0 itself goes to ∞
-            }
-            pts.push(a + (b - a) * (j as f64 / pieces as f64));
-        }
-    }
-    let last = *pts.last().unwrap_or(&v[n - 1]);
-    let d = last - v0;
-    for k in 1..=CLOSING_POINTS {
-        pts.push(v0 + d * 0.5f64.powi(k));
-    }
-    let phi0 = |z: Complex64| -> (Complex64, Complex64) {
-        let r = (z - v1) / (z - v0);
-        let s = r.sqrt();
-        let i = Complex64::new(0.0, 1.0);
-        // d/dz: i/(2√r) · (v_1 − v_0)/(z − v_0)².
-        (i * s, i / (2.0 * s) * (v1 - v0) / ((z - v0) * (z - v0)))
-    };
-    let mut images: Vec<Complex64> = Vec::with_capacity(pts.len() + 1);
-    images.push(Complex64::new(0.0, 0.0));
-    for &p in &pts {
-        let z = phi0(p).0;
-        images.push(Complex64::new(z.re, z.im.max(0.0)));
-    }
-    let unzip = ChordalUnzip::new(&images, StepKind::Tilted, Method::Fast)?;
-    let w_end = *unzip.result.driving.last().unwrap_or(&0.0);
-    let i = Complex64::new(0.0, 1.0);
-    let beta = (i * ((v0 - v1) / (last - v0)).sqrt()).arg() / PI;
-    let (a, da) = phi0(z0);
-    let (b, db) = unzip.map_with_derivative(a);
-    let rot = Complex64::from_polar(1.0, -beta * PI);
-    let u = (b - w_end) * rot;
-    let gamma = 1.0 / (1.0 - beta);
-    let arg = u.arg();
-    if !(arg > 0.0 && arg < (1.0 - beta) * PI && beta > 0.0 && beta < 1.0) {
-        return Err(Error::Numerical(format!(
+    let zip = PolygonZipper::new(v, refine)?;
+    let (out, d) = zip.map_with_derivative(z0).ok_or_else(|| {
+        Error::Numerical(format!(
             "the zipper lost the point ({}, {}): is the loop simple?",
             z0.re, z0.im
-        )));
+        ))
+    })?;
+    Ok((2.0 * out.im / d.norm(), zip.points))
+}
+
+/// The zipper map of a counterclockwise polygon's interior onto H (module docs): `v_0 ↦ ∞`,
+/// `v_1 ↦` a real point, boundary to the real line.
+#[derive(Debug, Clone)]
+pub struct PolygonZipper {
+    v0: Complex64,
+    v1: Complex64,
+    unzip: ChordalUnzip,
+    w_end: f64,
+    beta: f64,
+    points: usize,
+}
+
+impl PolygonZipper {
+    /// Build the map for the counterclockwise vertices `v` (at least 3, distinct consecutive),
+    /// each edge cut into `refine` pieces.
+    ///
+    /// # Errors
+    /// [`Error::Numerical`] if the unzip fails (a self-crossing polygon, for example).
+    pub fn new(v: &[Complex64], refine: usize) -> Result<Self> {
+        let n = v.len();
+        if n < 3 {
+            return Err(Error::InvalidData(format!(
+                "a polygon needs at least 3 vertices, got {n}"
+            )));
+        }
+        let (v0, v1) = (v[0], v[1]);
+        // Boundary points after v_1, in order, ending on the closing edge towards v_0.
+        let mut pts: Vec<Complex64> = Vec::with_capacity(n * refine + CLOSING_POINTS as usize);
+        for k in 1..n {
+            let (a, b) = (v[k], v[(k + 1) % n]);
+            for j in 1..=refine {
+                if k == n - 1 && j == refine {
+                    break; // v_0 itself goes to ∞
+                }
+                pts.push(a + (b - a) * (j as f64 / refine as f64));
+            }
+        }
+        let last = *pts.last().unwrap_or(&v[n - 1]);
+        let d = last - v0;
+        for k in 1..=CLOSING_POINTS {
+            pts.push(v0 + d * 0.5f64.powi(k));
+        }
+        let mut images: Vec<Complex64> = Vec::with_capacity(pts.len() + 1);
+        images.push(Complex64::new(0.0, 0.0));
+        for &p in &pts {
+            let z = phi0(v0, v1, p).0;
+            images.push(Complex64::new(z.re, z.im.max(0.0)));
+        }
+        let unzip = ChordalUnzip::new(&images, StepKind::Tilted, Method::Fast)?;
+        let w_end = *unzip.result.driving.last().unwrap_or(&0.0);
+        let i = Complex64::new(0.0, 1.0);
+        let beta = (i * ((v0 - v1) / (last - v0)).sqrt()).arg() / PI;
+        if !(beta > 0.0 && beta < 1.0) {
+            return Err(Error::Numerical(
+                "the zipper's closing edge left the half-plane: is the polygon simple?".into(),
+            ));
+        }
+        Ok(PolygonZipper {
+            v0,
+            v1,
+            unzip,
+            w_end,
+            beta,
+            points: images.len(),
+        })
     }
-    let out = (u.ln() * gamma).exp();
-    let dout = out * gamma / u * rot;
-    let deriv = (da * db * dout).norm();
-    Ok((2.0 * out.im / deriv, images.len()))
+
+    /// Image in H of an interior point and the map's derivative there; `None` if the point's
+    /// image falls outside the wedge that the interior must map to (a point outside the
+    /// polygon, or a polygon the zipper cannot follow).
+    pub fn map_with_derivative(&self, z: Complex64) -> Option<(Complex64, Complex64)> {
+        let (a, da) = phi0(self.v0, self.v1, z);
+        let (b, db) = self.unzip.map_with_derivative(a);
+        let rot = Complex64::from_polar(1.0, -self.beta * PI);
+        let u = (b - self.w_end) * rot;
+        let gamma = 1.0 / (1.0 - self.beta);
+        let arg = u.arg();
+        if !(arg > 0.0 && arg < (1.0 - self.beta) * PI) {
+            return None;
+        }
+        let out = (u.ln() * gamma).exp();
+        let dout = out * gamma / u * rot;
+        Some((out, da * db * dout))
+    }
+
+    /// Number of boundary points unzipped.
+    pub fn points(&self) -> usize {
+        self.points
+    }
+
+    /// Boundary points whose image was already on the real line when their turn came (crowding:
+    /// deep narrow fjords), and so were not unzipped.
+    pub fn skipped_points(&self) -> usize {
+        self.unzip.result.skipped.len()
+    }
+
+    /// The closing angle β (as a fraction of π) and the image of the last boundary point.
+    pub fn closing(&self) -> (f64, f64) {
+        (self.beta, self.w_end)
+    }
+
+    /// Image of `z` in the frame before the wedge is opened (diagnostics).
+    pub fn pre_wedge(&self, z: Complex64) -> Complex64 {
+        self.unzip.map(phi0(self.v0, self.v1, z).0)
+    }
+}
+
+/// `φ_0(z) = i √((z − v_1)/(z − v_0))` and its derivative.
+fn phi0(v0: Complex64, v1: Complex64, z: Complex64) -> (Complex64, Complex64) {
+    let r = (z - v1) / (z - v0);
+    let s = r.sqrt();
+    let i = Complex64::new(0.0, 1.0);
+    // d/dz: i/(2√r) · (v_1 − v_0)/(z − v_0)².
+    (i * s, i / (2.0 * s) * (v1 - v0) / ((z - v0) * (z - v0)))
+}
+
+/// The nearest point of the polygon's boundary to `z`, as (edge index k of [v_k, v_{k+1}],
+/// parameter in [0, 1], the point).
+pub fn nearest_boundary_point(v: &[Complex64], z: Complex64) -> (usize, f64, Complex64) {
+    let n = v.len();
+    let mut best = (0, 0.0, v[0], f64::INFINITY);
+    for k in 0..n {
+        let (a, b) = (v[k], v[(k + 1) % n]);
+        let d = b - a;
+        let t = (((z - a) * d.conj()).re / d.norm_sqr().max(1e-300)).clamp(0.0, 1.0);
+        let p = a + d * t;
+        let dist = (z - p).norm();
+        if dist < best.3 {
+            best = (k, t, p, dist);
+        }
+    }
+    (best.0, best.1, best.2)
+}
+
+/// A conformal map of a polygonal domain onto H sending the boundary point `a` to 0 and the
+/// boundary point `b` to ∞ (the zipper map, then an affine map of H), scaled so that the
+/// reference point has modulus 1. Used to measure chordal curves from `a` to `b` in a domain
+/// given by the user.
+#[derive(Debug, Clone)]
+pub struct PolygonToHalfPlane {
+    zip: PolygonZipper,
+    shift: f64,
+    scale: f64,
+}
+
+impl PolygonToHalfPlane {
+    /// The map for the polygon `vertices` (either orientation) with `a`, `b` projected onto its
+    /// boundary, `reference` an interior point (its image gets modulus 1), `refine` pieces per
+    /// edge.
+    ///
+    /// # Errors
+    /// [`Error::InvalidData`] for a degenerate polygon; [`Error::InvalidParameter`] if `a` and
+    /// `b` project to the same boundary point or `reference` is not inside;
+    /// [`Error::Numerical`] if the zipper fails.
+    pub fn new(
+        vertices: &[Complex64],
+        a: Complex64,
+        b: Complex64,
+        reference: Complex64,
+        refine: usize,
+    ) -> Result<Self> {
+        let mut v = clean_polygon(vertices)?;
+        if winding_number(&v, reference) == 0 {
+            return Err(Error::param(
+                "reference point",
+                format!("({}, {})", reference.re, reference.im),
+                "a point inside the domain",
+            ));
+        }
+        let (_, _, pa) = nearest_boundary_point(&v, a);
+        let (kb, tb, pb) = nearest_boundary_point(&v, b);
+        if (pa - pb).norm() < 1e-12 * (1.0 + pa.norm()) {
+            return Err(Error::param(
+                "curve end",
+                format!("({}, {})", b.re, b.im),
+                "a boundary point different from the start",
+            ));
+        }
+        // Put b first (v_0 ↦ ∞), inserting it as a vertex when it is inside an edge.
+        let n = v.len();
+        let mut w = Vec::with_capacity(n + 1);
+        if tb <= 0.0 {
+            v.rotate_left(kb);
+        } else if tb >= 1.0 {
+            v.rotate_left((kb + 1) % n);
+        } else {
+            v.rotate_left(kb + 1);
+            w.push(pb);
+        }
+        w.extend_from_slice(&v);
+        let zip = PolygonZipper::new(&w, refine)?;
+        // a's image: the real part of the image of a point just inside the boundary at a.
+        let (k, _, pa) = nearest_boundary_point(&w, pa);
+        let edge = w[(k + 1) % w.len()] - w[k];
+        let inward = Complex64::new(0.0, 1.0) * edge / edge.norm().max(1e-300);
+        let diam = w.iter().map(|z| (z - w[0]).norm()).fold(0.0, f64::max);
+        let probe = pa + inward * (1e-9 * diam);
+        let shift = zip
+            .map_with_derivative(probe)
+            .ok_or_else(|| Error::Numerical("the zipper lost the curve's start".into()))?
+            .0
+            .re;
+        let r = zip
+            .map_with_derivative(reference)
+            .ok_or_else(|| Error::Numerical("the zipper lost the reference point".into()))?
+            .0;
+        let scale = 1.0 / (r - shift).norm().max(1e-300);
+        Ok(PolygonToHalfPlane { zip, shift, scale })
+    }
+
+    /// Image of an interior point (None outside the domain).
+    pub fn map(&self, z: Complex64) -> Option<Complex64> {
+        self.map_with_derivative(z).map(|(w, _)| w)
+    }
+
+    /// Image of an interior point and the map's derivative there (None outside the domain).
+    pub fn map_with_derivative(&self, z: Complex64) -> Option<(Complex64, Complex64)> {
+        self.zip
+            .map_with_derivative(z)
+            .map(|(w, d)| ((w - self.shift) * self.scale, d * self.scale))
+    }
 }
 
 /// A loop surrounding a point, with its conformal radius seen from the point.

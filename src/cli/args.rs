@@ -104,6 +104,9 @@ pub enum CurveDomainArg {
     Disk,
     /// Radial in the unit disk from the first point to --target (default 0,0).
     DiskRadial,
+    /// Chordal in the polygon of --polygon FILE, from the first point to --target (default the
+    /// last point), both projected onto its boundary; mapped onto H by the zipper.
+    Polygon,
 }
 
 #[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
@@ -133,7 +136,10 @@ pub struct MeasureArgs {
     /// Disk: angle (radians) of the target boundary point.
     #[arg(long, value_parser = parse_finite, allow_hyphen_values = true)]
     pub target_angle: Option<f64>,
-    /// Disk-radial: the interior target point X,Y.
+    /// The domain's polygon for --domain polygon: a file of vertices `x,y` (CSV or JSON).
+    #[arg(long, value_name = "FILE")]
+    pub polygon: Option<PathBuf>,
+    /// Disk-radial: the interior target point X,Y; polygon: the target boundary point.
     #[arg(long, value_parser = parse_point, allow_hyphen_values = true)]
     pub target: Option<(f64, f64)>,
     /// Slit shape used to unzip.

@@ -56,7 +56,7 @@ pub fn run(g: &Global, a: &MeasureArgs) -> Result<(), Failure> {
         )));
     }
     let domain = match a.domain {
-        CurveDomainArg::HalfPlane => None,
+        CurveDomainArg::HalfPlane | CurveDomainArg::Polygon => None,
         CurveDomainArg::Disk => Some(false),
         CurveDomainArg::DiskRadial => Some(true),
     };
@@ -77,6 +77,23 @@ pub fn run(g: &Global, a: &MeasureArgs) -> Result<(), Failure> {
             CurveDomainArg::HalfPlane => Frame::HalfPlane,
             CurveDomainArg::Disk => Frame::Disk(a.target_angle),
             CurveDomainArg::DiskRadial => Frame::DiskRadial(a.target.unwrap_or((0.0, 0.0))),
+            CurveDomainArg::Polygon => {
+                let path = a.polygon.as_ref().ok_or_else(|| {
+                    Failure::Usage("--domain polygon needs --polygon FILE (vertices x,y)".into())
+                })?;
+                let poly = read(path)?;
+                let vertices = poly
+                    .into_iter()
+                    .next()
+                    .unwrap_or_default()
+                    .into_iter()
+                    .map(|z| (z.re, z.im))
+                    .collect();
+                Frame::Polygon {
+                    vertices,
+                    target: a.target,
+                }
+            }
         },
         slit,
         boundary_tolerance: a.boundary_tolerance,
