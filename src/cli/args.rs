@@ -84,8 +84,10 @@ pub enum Command {
     /// chordal curves. With --loops and --at: conformal radii of the loops around a point.
     ///
     /// Curve files: `x,y` per line, or `curve,x,y` for several curves (CSV, header and '#'
-    /// comments allowed), or JSON `[[x,y],…]`. Unzipping costs about 0.25 ms per point with
-    /// the fast tree (chordal) and N²/2 map evaluations radially.
+    /// comments allowed), or JSON `[[x,y],…]`. Cost on 2 cores (measured on lattice curves):
+    /// about 0.1 ms per point with tilted slits and 0.02 ms with vertical ones (chordal, fast
+    /// tree); radial unzipping is direct, N²/2 map evaluations (31 000 points in 7 s). Memory:
+    /// a few hundred bytes per point.
     Measure(MeasureArgs),
     /// Lattice reference curves with known scaling limits, written as curve files that
     /// `measure` reads: percolation exploration (SLE_6), critical Ising interfaces (SLE_3),
@@ -153,8 +155,7 @@ pub struct MeasureArgs {
     /// relative to the start (the lattice scale then stays uniform on the Loewner clock).
     #[arg(long, default_value = "2", value_parser = parse_positive)]
     pub max_distortion: f64,
-    /// Longer curves are thinned to this many points (every k-th point kept, reported): the
-    /// unzip costs about 0.25 ms per point.
+    /// Longer curves are thinned to this many points (every k-th point kept, reported).
     #[arg(long, default_value = "20000", value_parser = parse_count)]
     pub max_points: u64,
     /// Smallest lag (Loewner time); default 100 h², the Loewner time of a slit 20 median
