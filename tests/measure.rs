@@ -198,3 +198,44 @@ fn polygon_domain_map() {
         assert!(w.im > 0.0);
     }
 }
+
+/// Real-world input: consecutive duplicates are dropped and counted, the start is moved onto the
+/// real line with the shift reported, a self-crossing is found with its two segments and the
+/// crossing point, and a point below the real line is an error naming it.
+#[test]
+fn curve_cleaning_and_crossings() {
+    use sleek::curve::{find_crossing, prepare, CurveDomain};
+    let pts = [
+        C::new(2.0, 0.01),
+        C::new(2.0, 0.5),
+        C::new(2.0, 0.5),
+        C::new(3.0, 1.0),
+        C::new(2.5, 2.0),
+        C::new(1.5, 0.8),
+        C::new(3.5, 0.8),
+    ];
+    let p = prepare(&pts, CurveDomain::HalfPlane).unwrap();
+    assert_eq!(p.duplicates_dropped, 1);
+    assert_eq!(p.start_shift, 2.0);
+    assert!((p.start_gap - 0.01).abs() < 1e-15);
+    assert_eq!(p.points[0], C::new(0.0, 0.0));
+    // The segment from input point 1 ((2, 0.5), repeated as point 2) to (3, 1) is crossed by the
+    // segment from input point 5, (1.5, 0.8)–(3.5, 0.8), at (2.6, 0.8).
+    let (i, j, x, y) = p.crossing.expect("a crossing");
+    assert_eq!((i, j), (1, 5));
+    assert!(
+        (x - 2.6).abs() < 1e-12 && (y - 0.8).abs() < 1e-12,
+        "({x}, {y})"
+    );
+    // A simple spiral has none.
+    let spiral: Vec<C> = (0..2000)
+        .map(|k| C::from_polar(0.01 + 0.001 * k as f64, 0.05 * k as f64))
+        .collect();
+    assert!(find_crossing(&spiral).is_none());
+    let e = prepare(
+        &[C::new(0.0, 0.0), C::new(1.0, -0.5)],
+        CurveDomain::HalfPlane,
+    )
+    .unwrap_err();
+    assert!(e.to_string().contains("point 1"), "{e}");
+}

@@ -117,6 +117,22 @@ pub fn run(g: &Global, a: &MeasureArgs) -> Result<(), Failure> {
                 m.name
             ));
         }
+        let prep = &m.preparation;
+        if domain.is_none() && (prep.start_shift != 0.0 || prep.start_gap > 0.0) {
+            note(g, &format!(
+                "{}: the start was moved onto the real line (shifted by {:.6e}; it was {:.3e} above the line)",
+                m.name, -prep.start_shift, prep.start_gap
+            ));
+        }
+        if prep.duplicates_dropped > 0 || prep.trimmed > 0 {
+            note(
+                g,
+                &format!(
+                "{}: {} repeated points dropped, {} points outside the domain at the ends trimmed",
+                m.name, prep.duplicates_dropped, prep.trimmed
+            ),
+            );
+        }
         if !m.unzip.skipped.is_empty() {
             note(g, &format!(
                 "{}: {} points were on the boundary or on the curve already removed and were skipped (first: input point {})",
