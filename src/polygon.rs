@@ -153,14 +153,14 @@ pub fn conformal_radius(
 /// Falls back to the finest value when the three values do not converge monotonically.
 ///
 /// # Errors
-/// As [`conformal_radius`] (with `refine` up to 16).
+/// As [`conformal_radius`] (with `refine` up to 64).
 pub fn conformal_radius_extrapolated(
     vertices: &[Complex64],
     z0: Complex64,
     refine: usize,
 ) -> Result<RadiusEstimate> {
-    if refine == 0 || refine > 16 {
-        return Err(Error::param("refine", refine, "an integer in [1, 16]"));
+    if refine == 0 || refine > 64 {
+        return Err(Error::param("refine", refine, "an integer in [1, 64]"));
     }
     let first = conformal_radius(vertices, z0, refine)?;
     let v = clean_polygon(vertices)?;
