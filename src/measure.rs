@@ -190,7 +190,8 @@ pub fn estimate_kappa(curves: &[DrivingData], settings: &KappaSettings) -> Resul
         return Err(Error::param(
             "lags",
             "none",
-            "at least one lag shorter than a twentieth of the curves' Loewner time",
+            "at least one lag: the default range (100 h² up to a fifth of the median curve's \
+             Loewner time) is empty for these curves; give a smaller --min-lag or longer curves",
         ));
     }
     if let Some(&bad) = settings.lags.iter().find(|&&s| !(s > 0.0 && s.is_finite())) {

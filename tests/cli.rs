@@ -470,3 +470,57 @@ fn measure_and_lattice_from_the_command_line() {
     assert!(v["left_passage"]["estimate"].as_f64().is_some());
     assert!(!v["diagnostics"]["lags"].as_array().unwrap().is_empty());
 }
+
+/// `lattice` and `measure` give the same bytes at 1 and 2 threads (curves file, driving-function
+/// export, and the JSON record apart from its run time and the file paths).
+#[test]
+fn lattice_and_measure_do_not_depend_on_threads() {
+    let dir = tempfile::tempdir().unwrap();
+    let mut outs = Vec::new();
+    for threads in ["1", "2"] {
+        let d = dir.path().join(format!("t{threads}"));
+        let st = sleek()
+            .env("RAYON_NUM_THREADS", threads)
+            .args(["lattice", "--model", "ising", "--radius", "30", "-n", "4"])
+            .args(["--sweeps", "10", "--seed", "9", "-q", "--out"])
+            .arg(&d)
+            .output()
+            .unwrap();
+        assert!(st.status.success());
+        let curves = std::fs::read(d.join("lattice-ising.csv")).unwrap();
+        let w = d.join("w.csv");
+        let st = sleek()
+            .env("RAYON_NUM_THREADS", threads)
+            .args(["measure", "--domain", "disk", "--boundary-tolerance", "0.1"])
+            .args([
+                "--bootstrap",
+                "100",
+                "--seed",
+                "2",
+                "--min-lag",
+                "1e-4",
+                "--json",
+                "-q",
+            ])
+            .arg("--curve")
+            .arg(d.join("lattice-ising.csv"))
+            .arg("--export-csv")
+            .arg(&w)
+            .output()
+            .unwrap();
+        assert!(
+            st.status.success(),
+            "{}",
+            String::from_utf8_lossy(&st.stderr)
+        );
+        let mut v: serde_json::Value = serde_json::from_slice(&st.stdout).unwrap();
+        v["seconds_unzip"] = serde_json::Value::Null;
+        for c in v["curves"].as_array_mut().unwrap() {
+            c["file"] = serde_json::Value::Null; // the folder differs
+        }
+        outs.push((curves, std::fs::read(&w).unwrap(), v.to_string()));
+    }
+    assert!(outs[0].0 == outs[1].0, "curve files differ");
+    assert!(outs[0].1 == outs[1].1, "driving-function exports differ");
+    assert_eq!(outs[0].2, outs[1].2);
+}

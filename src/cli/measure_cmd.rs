@@ -175,7 +175,7 @@ pub fn run(g: &Global, a: &MeasureArgs) -> Result<(), Failure> {
     if g.json {
         let rec = serde_json::json!({
             "schema": 1, "version": env!("CARGO_PKG_VERSION"), "seed": seed,
-            "domain": format!("{:?}", a.domain), "slit": slit.name(), "clock": clock,
+            "domain": match a.domain { CurveDomainArg::HalfPlane => "half-plane", CurveDomainArg::Disk => "disk", CurveDomainArg::DiskRadial => "disk-radial", CurveDomainArg::Polygon => "polygon" }, "slit": slit.name(), "clock": clock,
             "kappa": {"estimate": kappa.estimate, "ci": kappa.ci, "level": kappa.level, "method": kappa.method},
             "left_passage": lp,
             "curves": curves_json,
