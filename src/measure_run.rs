@@ -153,7 +153,9 @@ pub fn measure_curves(
                     pts[pts.len() / 2]
                 };
                 let map = crate::polygon::PolygonToHalfPlane::new(&v, start, end, reference, 16)
-                    .map_err(|e| name_err(name, e))?;
+                    .map_err(|e| {
+                        Error::InvalidData(format!("the domain's polygon ({name}): {e}"))
+                    })?;
                 let mut out = Vec::with_capacity(pts.len());
                 out.push(Complex64::new(0.0, 0.0));
                 let mut d_start = None;
