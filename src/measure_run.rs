@@ -224,13 +224,8 @@ pub fn measure_curves(
                 let mut u = unzip_radial(&prepared.points, slit).map_err(|e| name_err(name, e))?;
                 // Near the target the lattice spacing h grows to e^t·h relative to the remaining
                 // domain: stop at radial time ln(1/(50 h)), h the median segment length.
-                let mut seg: Vec<f64> = pts
-                    .windows(2)
-                    .map(|w| (w[1] - w[0]).norm())
-                    .filter(|d| *d > 0.0)
-                    .collect();
-                seg.sort_by(f64::total_cmp);
-                if let Some(&h) = seg.get(seg.len() / 2) {
+                let h_input = median_segment(pts);
+                if let Some(h) = h_input {
                     let t_max = (1.0 / (50.0 * h)).ln();
                     if t_max > 0.0 {
                         let k = u.times.partition_point(|&t| t <= t_max).max(2);
@@ -240,7 +235,7 @@ pub fn measure_curves(
                     }
                 }
                 // The lattice spacing relative to the remaining domain at the last time used.
-                let h_end = seg.get(seg.len() / 2).map(|h| h * u.final_time().exp());
+                let h_end = h_input.map(|h| h * u.final_time().exp());
                 (u, Vec::new(), h_end)
             } else if let CurveDomain::Disk { target } = dom {
                 // Left passage from the polyline itself (no unzip needed): the curve from a to
@@ -302,14 +297,7 @@ pub fn measure_curves(
                 .map(|&k| k + 1)
                 .unwrap_or(0)
                 .min(prepared.points.len())];
-            let mut seg: Vec<f64> = used
-                .windows(2)
-                .map(|w| (w[1] - w[0]).norm())
-                .filter(|d| *d > 0.0)
-                .collect();
-            seg.sort_by(f64::total_cmp);
-            let spacing =
-                radial_spacing.unwrap_or_else(|| seg.get(seg.len() / 2).copied().unwrap_or(0.0));
+            let spacing = radial_spacing.unwrap_or_else(|| median_segment(used).unwrap_or(0.0));
             Ok(MeasuredCurve {
                 name: name.clone(),
                 preparation: prepared,
@@ -331,13 +319,14 @@ pub fn measure_curves(
     let step = mean_step(&data);
     // Lattice effects reach far above one step: the smallest default lag is the Loewner time of
     // a slit 20 median segments long (ℓ²/4 with ℓ = 20 h), h in the unzipping frame.
-    let mut hs: Vec<f64> = measured
-        .iter()
-        .map(|m| m.spacing)
-        .filter(|h| *h > 0.0)
-        .collect();
-    hs.sort_by(f64::total_cmp);
-    let h = hs.get(hs.len() / 2).copied().unwrap_or(0.0);
+    let h = median(
+        measured
+            .iter()
+            .map(|m| m.spacing)
+            .filter(|h| *h > 0.0)
+            .collect(),
+    )
+    .unwrap_or(0.0);
     let min_lag = a.min_lag.unwrap_or(100.0 * h * h);
     if min_lag.is_nan() || min_lag <= 0.0 {
         return Err(Error::param(
@@ -377,4 +366,20 @@ pub fn measure_curves(
         mean_step: step,
         median_segment: h,
     })
+}
+
+/// The median of the values (None when empty).
+fn median(mut v: Vec<f64>) -> Option<f64> {
+    v.sort_by(f64::total_cmp);
+    v.get(v.len() / 2).copied()
+}
+
+/// The median length of a polyline's non-zero segments.
+fn median_segment(p: &[Complex64]) -> Option<f64> {
+    median(
+        p.windows(2)
+            .map(|w| (w[1] - w[0]).norm())
+            .filter(|d| *d > 0.0)
+            .collect(),
+    )
 }

@@ -119,10 +119,23 @@ pub fn conformal_radius(
     z0: Complex64,
     refine: usize,
 ) -> Result<RadiusEstimate> {
+    let w = zipper_polygon(vertices, z0, refine)?;
+    let coarse = zipper_radius(&w, z0, refine)?;
+    let (fine, n) = zipper_radius_counted(&w, z0, 2 * refine)?;
+    Ok(RadiusEstimate {
+        value: fine,
+        error_estimate: (fine - coarse).abs(),
+        points: n,
+    })
+}
+
+/// The cleaned, counterclockwise polygon rotated to start at the vertex nearest `z0`, after the
+/// checks shared by the radius functions.
+fn zipper_polygon(vertices: &[Complex64], z0: Complex64, refine: usize) -> Result<Vec<Complex64>> {
     if refine == 0 || refine > 64 {
         return Err(Error::param("refine", refine, "an integer in [1, 64]"));
     }
-    let v = clean_polygon(vertices)?;
+    let mut v = clean_polygon(vertices)?;
     if winding_number(&v, z0) == 0 {
         return Err(Error::param(
             "point",
@@ -135,15 +148,8 @@ pub fn conformal_radius(
     let start = (0..v.len())
         .min_by(|&a, &b| (v[a] - z0).norm().total_cmp(&(v[b] - z0).norm()))
         .unwrap_or(0);
-    let mut w = v.clone();
-    w.rotate_left(start);
-    let coarse = zipper_radius(&w, z0, refine)?;
-    let (fine, n) = zipper_radius_counted(&w, z0, 2 * refine)?;
-    Ok(RadiusEstimate {
-        value: fine,
-        error_estimate: (fine - coarse).abs(),
-        points: n,
-    })
+    v.rotate_left(start);
+    Ok(v)
 }
 
 /// Conformal radius as [`conformal_radius`], then Richardson-extrapolated from `refine`,
@@ -159,18 +165,9 @@ pub fn conformal_radius_extrapolated(
     z0: Complex64,
     refine: usize,
 ) -> Result<RadiusEstimate> {
-    if refine == 0 || refine > 64 {
-        return Err(Error::param("refine", refine, "an integer in [1, 64]"));
-    }
-    let first = conformal_radius(vertices, z0, refine)?;
-    let v = clean_polygon(vertices)?;
-    let start = (0..v.len())
-        .min_by(|&a, &b| (v[a] - z0).norm().total_cmp(&(v[b] - z0).norm()))
-        .unwrap_or(0);
-    let mut w = v.clone();
-    w.rotate_left(start);
+    let w = zipper_polygon(vertices, z0, refine)?;
     let r1 = zipper_radius(&w, z0, refine)?;
-    let r2 = first.value;
+    let r2 = zipper_radius(&w, z0, 2 * refine)?;
     let (r3, n) = zipper_radius_counted(&w, z0, 4 * refine)?;
     let (d1, d2) = (r1 - r2, r2 - r3);
     if d1 * d2 > 0.0 && d2.abs() < d1.abs() {
