@@ -128,6 +128,19 @@ pub fn measure_curves(
     inputs: &[(String, Vec<Complex64>)],
     a: &MeasureSettings,
 ) -> Result<MeasureReport> {
+    measure_curves_with(inputs, a, &|| {})
+}
+
+/// As [`measure_curves`], calling `done` once per curve as its unzip finishes (from any thread;
+/// for progress bars).
+///
+/// # Errors
+/// As [`measure_curves`].
+pub fn measure_curves_with(
+    inputs: &[(String, Vec<Complex64>)],
+    a: &MeasureSettings,
+    done: &(dyn Fn() + Sync),
+) -> Result<MeasureReport> {
     if inputs.is_empty() {
         return Err(Error::InvalidData("no curves to measure".into()));
     }
@@ -298,6 +311,7 @@ pub fn measure_curves(
                 .unwrap_or(0)
                 .min(prepared.points.len())];
             let spacing = radial_spacing.unwrap_or_else(|| median_segment(used).unwrap_or(0.0));
+            done();
             Ok(MeasuredCurve {
                 name: name.clone(),
                 preparation: prepared,

@@ -1,12 +1,12 @@
 //! `sleek measure`: driving functions of users' curves, κ with intervals, loops' radii.
 
 use super::args::{CurveDomainArg, Global, MeasureArgs, StepArg};
-use super::common::{check_plot_path, note, resolve_seed, warn, write_file};
+use super::common::{check_plot_path, note, progress, resolve_seed, warn, write_file};
 use super::Failure;
 use num_complex::Complex64;
 use sleek::curve::parse_curves;
 use sleek::loewner::StepKind;
-use sleek::measure_run::{measure_curves, Frame, MeasureSettings};
+use sleek::measure_run::{measure_curves_with, Frame, MeasureSettings};
 use std::fmt::Write as _;
 use std::path::{Path, PathBuf};
 
@@ -104,41 +104,65 @@ pub fn run(g: &Global, a: &MeasureArgs) -> Result<(), Failure> {
         level: a.level,
         seed,
     };
-    let report = measure_curves(&inputs, &settings)?;
+    let pb = progress(g, inputs.len() as u64, "unzipping");
+    let report = measure_curves_with(&inputs, &settings, &|| pb.inc(1));
+    pb.finish_and_clear();
+    let report = report?;
     let unzip_seconds = started.elapsed().as_secs_f64();
     let longest = inputs.iter().map(|(_, p)| p.len()).max().unwrap_or(0);
     if longest as u64 > a.max_points {
         note(g, &format!("curves longer than --max-points {} were thinned (every k-th point kept; longest had {longest} points)", a.max_points));
     }
-    for m in &report.curves {
+    // Per-curve findings: crossings are warnings (the first few named), the rest one line of
+    // totals each; the JSON record has every curve's numbers.
+    let crossings: Vec<&_> = report
+        .curves
+        .iter()
+        .filter(|m| m.preparation.crossing.is_some())
+        .collect();
+    for m in crossings.iter().take(5) {
         if let Some((i, j, x, y)) = m.preparation.crossing {
             warn(&format!(
                 "{}: the curve crosses itself (segments {i} and {j}, near ({x:.6}, {y:.6})); the unzip treats what follows as seen from the crossing",
                 m.name
             ));
         }
-        let prep = &m.preparation;
-        if domain.is_none() && (prep.start_shift != 0.0 || prep.start_gap > 0.0) {
+    }
+    if crossings.len() > 5 {
+        warn(&format!(
+            "{} more curves cross themselves (see --json)",
+            crossings.len() - 5
+        ));
+    }
+    let n = report.curves.len();
+    let moved = report
+        .curves
+        .iter()
+        .filter(|m| m.preparation.start_shift != 0.0 || m.preparation.start_gap > 0.0)
+        .count();
+    if domain.is_none() && moved > 0 {
+        let m = report
+            .curves
+            .iter()
+            .find(|m| m.preparation.start_shift != 0.0 || m.preparation.start_gap > 0.0);
+        if let Some(m) = m {
             note(g, &format!(
-                "{}: the start was moved onto the real line (shifted by {:.6e}; it was {:.3e} above the line)",
-                m.name, -prep.start_shift, prep.start_gap
+                "{moved} of {n} curves started off the real line and were moved onto it (e.g. {}: shifted by {:.6e}, was {:.3e} above; see --json)",
+                m.name, -m.preparation.start_shift, m.preparation.start_gap
             ));
         }
-        if prep.duplicates_dropped > 0 || prep.trimmed > 0 {
-            note(
-                g,
-                &format!(
-                "{}: {} repeated points dropped, {} points outside the domain at the ends trimmed",
-                m.name, prep.duplicates_dropped, prep.trimmed
-            ),
-            );
-        }
-        if !m.unzip.skipped.is_empty() {
-            note(g, &format!(
-                "{}: {} points were on the boundary or on the curve already removed and were skipped (first: input point {})",
-                m.name, m.unzip.skipped.len(), m.preparation.input_index.get(m.unzip.skipped[0]).copied().unwrap_or(0)
-            ));
-        }
+    }
+    let dups: usize = report
+        .curves
+        .iter()
+        .map(|m| m.preparation.duplicates_dropped)
+        .sum();
+    let trimmed: usize = report.curves.iter().map(|m| m.preparation.trimmed).sum();
+    let skipped: usize = report.curves.iter().map(|m| m.unzip.skipped.len()).sum();
+    if dups + trimmed + skipped > 0 {
+        note(g, &format!(
+            "{n} curves: {dups} repeated points dropped, {trimmed} points outside the domain at the ends trimmed, {skipped} points on the boundary or on the curve already removed skipped (per curve: --json)"
+        ));
     }
     let data = report.driving_data();
     let kappa = &report.kappa;
