@@ -105,20 +105,6 @@ pub fn mean_step(curves: &[DrivingData]) -> f64 {
     }
 }
 
-/// The median Loewner time of one step over all curves (a proxy for the lattice scale).
-pub fn median_step(curves: &[DrivingData]) -> f64 {
-    let mut d: Vec<f64> = curves
-        .iter()
-        .flat_map(|c| c.times.windows(2).map(|w| w[1] - w[0]))
-        .filter(|x| *x > 0.0)
-        .collect();
-    if d.is_empty() {
-        return 0.0;
-    }
-    d.sort_by(f64::total_cmp);
-    d[d.len() / 2]
-}
-
 /// One lag's row of the κ table.
 #[derive(Debug, Clone, Serialize)]
 pub struct LagRow {
@@ -358,7 +344,7 @@ fn normal_cdf(x: f64) -> f64 {
     0.5 * (-x / std::f64::consts::SQRT_2).compl_error()
 }
 
-/// Positions (as `x/y` ratios) where left passage is recorded, and their polar angles.
+/// Polar angles (in H) of the points where left passage is recorded: jπ/10, j = 1, …, 9.
 pub fn left_passage_angles() -> Vec<f64> {
     (1..10)
         .map(|j| j as f64 * std::f64::consts::PI / 10.0)

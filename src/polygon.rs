@@ -68,6 +68,10 @@ pub struct RadiusEstimate {
     pub error_estimate: f64,
     /// Points unzipped at the finer resolution.
     pub points: usize,
+    /// Boundary points whose image was already on the real line when their turn came (parts
+    /// behind narrow necks, crowded in double precision), at the finer resolution; they were
+    /// not unzipped.
+    pub crowded: usize,
 }
 
 /// Clean a polygon: drop a repeated closing vertex and consecutive duplicates, orient it
@@ -121,11 +125,12 @@ pub fn conformal_radius(
 ) -> Result<RadiusEstimate> {
     let w = zipper_polygon(vertices, z0, refine)?;
     let coarse = zipper_radius(&w, z0, refine)?;
-    let (fine, n) = zipper_radius_counted(&w, z0, 2 * refine)?;
+    let (fine, n, crowded) = zipper_radius_counted(&w, z0, 2 * refine)?;
     Ok(RadiusEstimate {
         value: fine,
         error_estimate: (fine - coarse).abs(),
         points: n,
+        crowded,
     })
 }
 
@@ -168,7 +173,7 @@ pub fn conformal_radius_extrapolated(
     let w = zipper_polygon(vertices, z0, refine)?;
     let r1 = zipper_radius(&w, z0, refine)?;
     let r2 = zipper_radius(&w, z0, 2 * refine)?;
-    let (r3, n) = zipper_radius_counted(&w, z0, 4 * refine)?;
+    let (r3, n, crowded) = zipper_radius_counted(&w, z0, 4 * refine)?;
     let (d1, d2) = (r1 - r2, r2 - r3);
     if d1 * d2 > 0.0 && d2.abs() < d1.abs() {
         let f = 2f64.powf((d1 / d2).log2());
@@ -177,12 +182,14 @@ pub fn conformal_radius_extrapolated(
             value: ext,
             error_estimate: (ext - r3).abs(),
             points: n,
+            crowded,
         });
     }
     Ok(RadiusEstimate {
         value: r3,
         error_estimate: d2.abs().max(d1.abs()),
         points: n,
+        crowded,
     })
 }
 
@@ -190,7 +197,11 @@ fn zipper_radius(v: &[Complex64], z0: Complex64, refine: usize) -> Result<f64> {
     zipper_radius_counted(v, z0, refine).map(|r| r.0)
 }
 
-fn zipper_radius_counted(v: &[Complex64], z0: Complex64, refine: usize) -> Result<(f64, usize)> {
+fn zipper_radius_counted(
+    v: &[Complex64],
+    z0: Complex64,
+    refine: usize,
+) -> Result<(f64, usize, usize)> {
     let zip = PolygonZipper::new(v, refine)?;
     let (out, d) = zip.map_with_derivative(z0).ok_or_else(|| {
         Error::Numerical(format!(
@@ -198,7 +209,7 @@ fn zipper_radius_counted(v: &[Complex64], z0: Complex64, refine: usize) -> Resul
             z0.re, z0.im
         ))
     })?;
-    Ok((2.0 * out.im / d.norm(), zip.points))
+    Ok((2.0 * out.im / d.norm(), zip.points, zip.skipped_points()))
 }
 
 /// The zipper map of a counterclockwise polygon's interior onto H (module docs): `v_0 ↦ ∞`,
@@ -295,16 +306,6 @@ impl PolygonZipper {
     /// deep narrow fjords), and so were not unzipped.
     pub fn skipped_points(&self) -> usize {
         self.unzip.result.skipped.len()
-    }
-
-    /// The closing angle β (as a fraction of π) and the image of the last boundary point.
-    pub fn closing(&self) -> (f64, f64) {
-        (self.beta, self.w_end)
-    }
-
-    /// Image of `z` in the frame before the wedge is opened (diagnostics).
-    pub fn pre_wedge(&self, z: Complex64) -> Complex64 {
-        self.unzip.map(phi0(self.v0, self.v1, z).0)
     }
 }
 

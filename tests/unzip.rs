@@ -3,7 +3,7 @@
 //! identity unzip ∘ trace, radial unzipping, and the fast tree against direct composition.
 
 use num_complex::Complex64 as C;
-use sleek::driving::{BrownianPath, DrivingFunction};
+use sleek::driving::BrownianPath;
 use sleek::loewner::{ChordalChain, Method, StepKind};
 use sleek::radial::RadialChain;
 use sleek::unzip::{unzip_radial, ChordalUnzip};
@@ -156,13 +156,12 @@ fn radial_unzip_of_trace() {
     assert!((v.final_time() - 2.0).abs() < 2e-2, "{}", v.final_time());
 }
 
-/// Constant driving function data on a general grid stays a valid input for tests above.
+/// A point below the real line is refused with a message naming it.
 #[test]
 fn points_below_the_line_are_rejected() {
     let pts = [C::new(0.0, 0.0), C::new(0.1, 0.2), C::new(0.2, -0.1)];
     let e = ChordalUnzip::new(&pts, StepKind::Tilted, Method::Fast).unwrap_err();
     assert!(e.to_string().contains("point 2"), "{e}");
-    let _ = DrivingFunction::from_fn(1.0, 4, |_| 0.0).unwrap();
 }
 
 /// A semicircular arc from 0 over the half-disk of centre −r, radius r, ending on the real line at

@@ -294,17 +294,18 @@ fn loops(g: &Global, a: &MeasureArgs) -> Result<(), Failure> {
         found.len()
     );
     println!(
-        "{:>6} {:>8} {:>14} {:>10} {:>12}",
-        "depth", "loop", "CR", "± est.", "−log CR"
+        "{:>6} {:>8} {:>14} {:>10} {:>12} {:>8}",
+        "depth", "loop", "CR", "± est.", "−log CR", "crowded"
     );
     for l in &found {
         println!(
-            "{:>6} {:>8} {:>14.8} {:>10.1e} {:>12.6}",
+            "{:>6} {:>8} {:>14.8} {:>10.1e} {:>12.6} {:>8}",
             l.depth,
             l.loop_index,
             l.conformal_radius.value,
             l.conformal_radius.error_estimate,
-            -l.conformal_radius.value.ln()
+            -l.conformal_radius.value.ln(),
+            l.conformal_radius.crowded
         );
     }
     note(g, &format!("zipper conformal radii, error estimates from one and two subdivisions per edge ({secs:.2} s)"));
