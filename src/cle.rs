@@ -57,7 +57,7 @@ use num_complex::Complex64;
 use rand::Rng;
 use rand_chacha::ChaCha8Rng;
 use rand_distr::{Distribution, Gamma, Poisson, StandardNormal};
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 use std::f64::consts::PI;
 
 const TWO_PI: f64 = 2.0 * PI;
@@ -255,7 +255,7 @@ impl AngleProcess {
 }
 
 /// Numerical settings of the exploration.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct ExploreSettings {
     /// Largest step, in the driving point's radial time (default 0.01; DESIGN §6.1 measured
     /// ≈ 0.5% error in E[T] at this step).
@@ -296,7 +296,7 @@ impl ExploreSettings {
 }
 
 /// A loop of the configuration surrounding a marked point.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct LoopAround {
     /// Nesting level (1 = outermost loop around the point).
     pub level: usize,
@@ -308,7 +308,7 @@ pub struct LoopAround {
 }
 
 /// What one sample found around one marked point.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct PointRecord {
     /// The marked point.
     pub z: [f64; 2],

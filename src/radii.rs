@@ -15,10 +15,10 @@ use crate::laws::CleLaw;
 use crate::stats::{choose_tail_threshold, ks_test, KsTest, Moments, TailFit, DEFAULT_TAIL_LEVELS};
 use num_complex::Complex64;
 use rayon::prelude::*;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// What to sample.
-#[derive(Debug, Clone, PartialEq, Serialize)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct RadiiSettings {
     /// κ, 8/3 < κ < 8.
     pub kappa: f64,
@@ -47,13 +47,20 @@ pub struct RadiiRun {
     pub steps: u64,
 }
 
-/// Run the explorations (parallel over samples; each sample is a pure function of
-/// (seed, sample index), so the result does not depend on the thread count).
-/// `tick` is called once per finished sample (for progress bars).
+/// One sample of a run: what the exploration found at every marked point, and its step count.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct RadiiSample {
+    /// Total steps of the exploration (all branches).
+    pub steps: u64,
+    /// One record per marked point, in the order of the settings' points.
+    pub points: Vec<PointRecord>,
+}
+
+/// The explorer of a run's settings.
 ///
 /// Errors: [`Error::InvalidParameter`] for κ outside (8/3, 8), points outside the open disk,
 /// no points, zero samples, or λ ≤ −λ*.
-pub fn run(settings: &RadiiSettings, seed: u64, tick: &(dyn Fn() + Sync)) -> Result<RadiiRun> {
+pub fn explorer(settings: &RadiiSettings) -> Result<CleExplorer> {
     let law = CleLaw::new(settings.kappa)?;
     if settings.samples == 0 {
         return Err(Error::param("samples", 0.0, "at least 1 sample"));
@@ -78,22 +85,47 @@ pub fn run(settings: &RadiiSettings, seed: u64, tick: &(dyn Fn() + Sync)) -> Res
         .iter()
         .map(|p| Complex64::new(p[0], p[1]))
         .collect();
-    let explorer = CleExplorer::new(settings.kappa, &pts, settings.explore)?;
-    let rows: Vec<(Vec<PointRecord>, u64)> = (0..settings.samples)
+    CleExplorer::new(settings.kappa, &pts, settings.explore)
+}
+
+/// Sample `i` of a run with `seed`: a pure function of both.
+pub fn sample(explorer: &CleExplorer, seed: u64, i: u64) -> RadiiSample {
+    let s: CleSample = explorer.sample(seed, i);
+    RadiiSample {
+        steps: s.diagnostics.steps,
+        points: s.points,
+    }
+}
+
+impl RadiiRun {
+    /// A run from its samples in index order.
+    pub fn from_samples(settings: &RadiiSettings, seed: u64, samples: Vec<RadiiSample>) -> Self {
+        let steps = samples.iter().map(|r| r.steps).sum();
+        RadiiRun {
+            settings: settings.clone(),
+            seed,
+            records: samples.into_iter().map(|r| r.points).collect(),
+            steps,
+        }
+    }
+}
+
+/// Run the explorations (parallel over samples; each sample is a pure function of
+/// (seed, sample index), so the result does not depend on the thread count).
+/// `tick` is called once per finished sample (for progress bars).
+///
+/// Errors: as [`explorer`].
+pub fn run(settings: &RadiiSettings, seed: u64, tick: &(dyn Fn() + Sync)) -> Result<RadiiRun> {
+    let explorer = explorer(settings)?;
+    let rows: Vec<RadiiSample> = (0..settings.samples)
         .into_par_iter()
         .map(|i| {
-            let s: CleSample = explorer.sample(seed, i);
+            let s = sample(&explorer, seed, i);
             tick();
-            (s.points, s.diagnostics.steps)
+            s
         })
         .collect();
-    let steps = rows.iter().map(|r| r.1).sum();
-    Ok(RadiiRun {
-        settings: settings.clone(),
-        seed,
-        records: rows.into_iter().map(|r| r.0).collect(),
-        steps,
-    })
+    Ok(RadiiRun::from_samples(settings, seed, rows))
 }
 
 /// One estimated moment beside its exact value.

@@ -10,12 +10,12 @@ use crate::driving::{check_kappa, check_time, BrownianPath, DrivingFunction, MAX
 use crate::error::{Error, Result};
 use crate::loewner::{ChordalChain, Method, StepKind};
 use num_complex::Complex64;
-use serde::Serialize;
+use serde::{Deserialize, Serialize};
 
 /// A spacing target for adaptive refinement: consecutive trace points `p, q` must satisfy
 /// `|p − q| ≤ min(absolute, relative · max(r, inner_radius))`, where `r` is the smaller distance
 /// of `p`, `q` from the start point `γ(0)` (unset bounds count as +∞).
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct SpacingRule {
     /// Absolute bound on the distance between consecutive points, if any.
     pub absolute: Option<f64>,
@@ -80,7 +80,7 @@ impl SpacingRule {
 }
 
 /// How finely a curve is discretised.
-#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 #[serde(rename_all = "kebab-case")]
 pub enum Resolution {
     /// `N` equal capacity steps, no refinement.

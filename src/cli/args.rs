@@ -2,6 +2,8 @@
 //! valid range; clap adds the option name and the offending value.
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
+use serde::{Deserialize, Serialize};
+use sleek::journal::Shard;
 use std::path::PathBuf;
 
 /// sleek — Schramm–Loewner evolution by the zipper, with exact laws beside every estimate.
@@ -94,6 +96,37 @@ pub enum Command {
     /// loop-erased random walk (radial SLE_2), percolation loops (CLE_6), in a disk of
     /// --radius lattice spacings, scaled to the unit disk.
     Lattice(LatticeArgs),
+    /// Combine the folders of a sharded run (each made with --shard K/M --out DIR) into --out
+    /// DIR: the parts must be shards of one run (same command, settings, seed and version),
+    /// complete, disjoint and together complete; the result is byte for byte what the
+    /// unsharded run writes to its --out folder.
+    Merge(MergeArgs),
+}
+
+/// Options of every sampling command for long runs (see README, "Long runs").
+#[derive(Args, Debug, Clone, Default)]
+pub struct RunArgs {
+    /// Run only shard K of M (1 ≤ K ≤ M): the samples ⌊(K−1)n/M⌋ to ⌊Kn/M⌋ − 1 of the n of the
+    /// run. Needs --out (the shard's folder) and --seed (the same for every shard); combine the
+    /// folders with `sleek merge`.
+    #[arg(long, value_parser = parse_shard, value_name = "K/M")]
+    pub shard: Option<Shard>,
+    /// Continue the interrupted run in --out DIR, given with the same options: finished samples
+    /// are kept, the others are run, and the results equal an uninterrupted run's.
+    #[arg(long)]
+    pub resume: bool,
+}
+
+#[derive(Args, Debug)]
+pub struct MergeArgs {
+    /// The shard folders (each written by a run with --shard K/M --out DIR), in any order.
+    #[arg(required = true, value_name = "DIR")]
+    pub parts: Vec<PathBuf>,
+}
+
+/// `K/M` for --shard.
+pub fn parse_shard(s: &str) -> Result<Shard, String> {
+    Shard::parse(s)
 }
 
 #[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
@@ -111,7 +144,8 @@ pub enum CurveDomainArg {
     Polygon,
 }
 
-#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
+#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
 pub enum LatticeModel {
     /// Critical site percolation exploration on the triangular lattice, −i to i (chordal SLE_6).
     Percolation,
@@ -188,6 +222,8 @@ pub struct MeasureArgs {
 
 #[derive(Args, Debug)]
 pub struct LatticeArgs {
+    #[command(flatten)]
+    pub run: RunArgs,
     /// Which model.
     #[arg(long, value_enum)]
     pub model: LatticeModel,
@@ -220,7 +256,8 @@ pub struct BenchArgs {
     pub cle_samples: u64,
 }
 
-#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
+#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
 pub enum StepArg {
     /// Straight slits at angle απ (piecewise square-root driving; continuous trace).
     Tilted,
@@ -228,7 +265,8 @@ pub enum StepArg {
     Vertical,
 }
 
-#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
+#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
 pub enum MethodArg {
     /// Compose every slit map for every point (O(N²), the reference).
     Direct,
@@ -237,7 +275,8 @@ pub enum MethodArg {
     Fast,
 }
 
-#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
+#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "kebab-case")]
 pub enum DomainArg {
     /// Upper half-plane, from 0 to ∞.
     HalfPlane,
@@ -253,6 +292,8 @@ pub enum DomainArg {
 #[derive(Args, Debug)]
 #[command(allow_negative_numbers = true)]
 pub struct TraceArgs {
+    #[command(flatten)]
+    pub run: RunArgs,
     /// κ > 0 (κ > 8 is allowed with a warning: the curve is space-filling).
     #[arg(long, short, value_parser = parse_kappa, required_unless_present = "driving")]
     pub kappa: Option<f64>,
@@ -376,6 +417,8 @@ pub struct AuditArgs {
 #[derive(Args, Debug)]
 #[command(allow_negative_numbers = true)]
 pub struct RadiiArgs {
+    #[command(flatten)]
+    pub run: RunArgs,
     /// κ, 8/3 < κ < 8.
     #[arg(long, short, value_parser = parse_kappa)]
     pub kappa: f64,

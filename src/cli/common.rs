@@ -95,3 +95,36 @@ macro_rules! out {
     };
 }
 pub(crate) use out;
+
+/// Memory this machine has available now (`MemAvailable` of /proc/meminfo), in bytes; `None`
+/// where it cannot be read.
+pub fn available_memory() -> Option<f64> {
+    let text = std::fs::read_to_string("/proc/meminfo").ok()?;
+    let line = text.lines().find(|l| l.starts_with("MemAvailable:"))?;
+    let kib: f64 = line.split_whitespace().nth(1)?.parse().ok()?;
+    Some(kib * 1024.0)
+}
+
+/// Before a run: refuse one that needs more than 64 GiB, warn when it needs more than the memory
+/// available now. `what` says what the estimate counts.
+pub fn check_memory(bytes: f64, what: &str) -> Result<(), Failure> {
+    const GIB: f64 = (1u64 << 30) as f64;
+    if bytes > 64.0 * GIB {
+        return Err(Failure::Usage(format!(
+            "{what} need about {:.0} GiB of memory; the limit is 64 GiB: split the run with \
+             --shard K/M (each sample depends only on --seed and its index)",
+            bytes / GIB
+        )));
+    }
+    if let Some(avail) = available_memory() {
+        if bytes > avail {
+            warn(&format!(
+                "{what} need about {:.1} GiB of memory but {:.1} GiB is available: the run may \
+                 be killed; consider --shard K/M",
+                bytes / GIB,
+                avail / GIB
+            ));
+        }
+    }
+    Ok(())
+}

@@ -1,11 +1,13 @@
 //! `sleek lattice`: reference curves from lattice models, written as curve files.
 
 use super::args::{Global, LatticeArgs, LatticeModel};
-use super::common::{note, progress, resolve_seed, write_file};
+use super::common::{check_memory, note, out, write_file};
+use super::runs::{self, Outcome};
 use super::Failure;
-use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
 use sleek::lattice::{self, IsingConfig, LatticeDisk};
 use std::fmt::Write as _;
+use std::path::Path;
 use std::time::Instant;
 
 pub fn run(g: &Global, a: &LatticeArgs) -> Result<(), Failure> {
@@ -19,40 +21,92 @@ pub fn run(g: &Global, a: &LatticeArgs) -> Result<(), Failure> {
             a.count
         )));
     }
-    let seed = resolve_seed(g);
+    let job = LatticeJob {
+        model: a.model,
+        radius: a.radius,
+        sweeps: a.sweeps,
+        count: a.count,
+    };
+    // Per worker thread: the lattice (about 40 bytes a site, π·radius² sites, three times for
+    // Ising's cluster work); kept: the curves, at most a few times radius^1.75 points each.
+    let sites = std::f64::consts::PI * (radius as f64).powi(2);
+    let threads = rayon::current_num_threads() as f64;
+    let bytes = threads.min(a.count as f64) * sites * 120.0
+        + a.count as f64 * 4.0 * (radius as f64).powf(1.75) * 16.0;
+    check_memory(
+        bytes,
+        &format!("--count {} samples at --radius {radius}", a.count),
+    )?;
+    let mut plan = runs::plan(g, &a.run, "lattice", a.count, &job)?;
+    let seed = plan.seed;
+    let start = Instant::now();
+    let samples = match runs::execute(g, &mut plan, name_of(a.model).0, |i| match a.model {
+        LatticeModel::Percolation => vec![lattice::percolation_exploration(&disk, seed, i)],
+        LatticeModel::Ising => vec![lattice::ising_interface(&disk, &ising, seed, i)],
+        LatticeModel::Lerw => vec![lattice::lerw_radial(&disk, seed, i)],
+        LatticeModel::Loops => lattice::percolation_loops(&disk, seed, i),
+    })? {
+        Outcome::All(v) => v,
+        Outcome::ShardDone => return Ok(()),
+    };
+    let elapsed = start.elapsed().as_secs_f64();
     let out = g.out.clone().unwrap_or_else(|| "output".into());
-    std::fs::create_dir_all(&out)
-        .map_err(|e| Failure::Runtime(format!("cannot create {}: {e}", out.display())))?;
-    let (name, limit, domain) = match a.model {
+    report(g, &job, seed, samples, &out, Some(elapsed))
+}
+
+/// Everything that determines a lattice run's samples (recorded in a run folder).
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct LatticeJob {
+    pub model: LatticeModel,
+    pub radius: u64,
+    pub sweeps: u64,
+    pub count: u64,
+}
+
+/// File stem and scaling limit of a model.
+fn name_of(m: LatticeModel) -> (&'static str, &'static str, &'static str) {
+    match m {
         LatticeModel::Percolation => ("percolation", "chordal SLE_6 from −i to i", "disk"),
         LatticeModel::Ising => ("ising", "chordal SLE_3 from −i to i", "disk"),
         LatticeModel::Lerw => ("lerw", "radial SLE_2 from the boundary to 0", "disk-radial"),
         LatticeModel::Loops => ("loops", "CLE_6 in the unit disk", "loops"),
-    };
-    let start = Instant::now();
-    let pb = progress(g, a.count, name);
-    let samples: Vec<Vec<Vec<[f64; 2]>>> = (0..a.count)
-        .into_par_iter()
-        .map(|i| {
-            let r = match a.model {
-                LatticeModel::Percolation => vec![lattice::percolation_exploration(&disk, seed, i)],
-                LatticeModel::Ising => vec![lattice::ising_interface(&disk, &ising, seed, i)],
-                LatticeModel::Lerw => vec![lattice::lerw_radial(&disk, seed, i)],
-                LatticeModel::Loops => lattice::percolation_loops(&disk, seed, i),
-            };
-            pb.inc(1);
-            r
-        })
-        .collect();
-    pb.finish_and_clear();
-    let elapsed = start.elapsed().as_secs_f64();
+    }
+}
+
+/// Write a complete lattice run's curve file in `out` and print its summary (shared with
+/// `merge`).
+pub fn finish(
+    g: &Global,
+    job: &LatticeJob,
+    seed: u64,
+    samples: Vec<Vec<Vec<[f64; 2]>>>,
+    out: &Path,
+) -> Result<(), Failure> {
+    report(g, job, seed, samples, out, None)
+}
+
+fn report(
+    g: &Global,
+    job: &LatticeJob,
+    seed: u64,
+    samples: Vec<Vec<Vec<[f64; 2]>>>,
+    out: &Path,
+    elapsed: Option<f64>,
+) -> Result<(), Failure> {
+    let radius = usize::try_from(job.radius).unwrap_or(usize::MAX);
+    let disk = LatticeDisk::new(radius)?;
+    let sweeps = usize::try_from(job.sweeps).unwrap_or(usize::MAX);
+    let (name, limit, domain) = name_of(job.model);
+    std::fs::create_dir_all(out)
+        .map_err(|e| Failure::Runtime(format!("cannot create {}: {e}", out.display())))?;
+    sleek::finite::ensure_finite(&samples, "lattice curves").map_err(Failure::Runtime)?;
     let mut csv = String::new();
     let _ = writeln!(
         csv,
         "# sleek lattice --model {name} --radius {radius} --seed {seed}; scaling limit: {limit}; lattice spacing {:e} in disk units",
         lattice::lattice_spacing(&disk)
     );
-    let key = if a.model == LatticeModel::Loops {
+    let key = if job.model == LatticeModel::Loops {
         "sample_loop"
     } else {
         "curve"
@@ -62,7 +116,7 @@ pub fn run(g: &Global, a: &LatticeArgs) -> Result<(), Failure> {
     let mut points = 0usize;
     for (i, s) in samples.iter().enumerate() {
         for (j, c) in s.iter().enumerate() {
-            let id = if a.model == LatticeModel::Loops {
+            let id = if job.model == LatticeModel::Loops {
                 format!("{i}-{j}")
             } else {
                 i.to_string()
@@ -78,32 +132,32 @@ pub fn run(g: &Global, a: &LatticeArgs) -> Result<(), Failure> {
     write_file(&path, csv.as_bytes())?;
     if g.json {
         let rec = serde_json::json!({
-            "model": name, "radius": radius, "seed": seed, "samples": a.count,
-            "sweeps": if a.model == LatticeModel::Ising { Some(sweeps) } else { None },
+            "model": name, "radius": radius, "seed": seed, "samples": job.count,
+            "sweeps": if job.model == LatticeModel::Ising { Some(sweeps) } else { None },
             "scaling_limit": limit, "lattice_spacing": lattice::lattice_spacing(&disk),
             "curves": count, "points": points, "seconds": elapsed,
             "file": path.display().to_string(),
         });
-        println!("{}", serde_json::to_string_pretty(&rec).unwrap_or_default());
+        out!("{}", serde_json::to_string_pretty(&rec).unwrap_or_default());
     } else {
-        println!("model            {name} (scaling limit: {limit})");
-        println!("lattice          triangular, disk of radius {radius} spacings, scaled to the unit disk (spacing {:.2e})", lattice::lattice_spacing(&disk));
-        if a.model == LatticeModel::Ising {
-            println!("sweeps           {sweeps} Swendsen–Wang sweeps at K_c = ln 3 / 4");
+        out!("model            {name} (scaling limit: {limit})");
+        out!("lattice          triangular, disk of radius {radius} spacings, scaled to the unit disk (spacing {:.2e})", lattice::lattice_spacing(&disk));
+        if job.model == LatticeModel::Ising {
+            out!("sweeps           {sweeps} Swendsen–Wang sweeps at K_c = ln 3 / 4");
         }
-        println!("seed             {seed}");
-        println!(
-            "written          {count} curves, {points} points in {:.2} s → {}",
-            elapsed,
+        out!("seed             {seed}");
+        out!(
+            "written          {count} curves, {points} points{} → {}",
+            elapsed.map(|e| format!(" in {e:.2} s")).unwrap_or_default(),
             path.display()
         );
         if domain != "loops" {
-            println!(
+            out!(
                 "measure with     sleek measure --curve {} --domain {domain}",
                 path.display()
             );
         } else {
-            println!(
+            out!(
                 "measure with     sleek measure --loops {} --at 0,0",
                 path.display()
             );

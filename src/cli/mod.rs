@@ -9,8 +9,10 @@ mod common;
 mod lattice_cmd;
 mod laws_cmd;
 mod measure_cmd;
+mod merge_cmd;
 mod radial_trace;
 mod radii_cmd;
+mod runs;
 mod tour;
 mod trace_cmd;
 
@@ -24,6 +26,8 @@ pub enum Failure {
     Usage(String),
     /// Something failed while running (exit 1).
     Runtime(String),
+    /// Stopped by a signal with the work saved (exit 130).
+    Interrupted(String),
     /// Standard output was closed by its reader: stop without a message (exit 0).
     Quiet,
 }
@@ -83,6 +87,7 @@ pub fn main() -> ExitCode {
         Some(Command::Bench(a)) => bench_cmd::run(&cli.global, a),
         Some(Command::Measure(a)) => measure_cmd::run(&cli.global, a),
         Some(Command::Lattice(a)) => lattice_cmd::run(&cli.global, a),
+        Some(Command::Merge(a)) => merge_cmd::run(&cli.global, a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
@@ -93,6 +98,10 @@ pub fn main() -> ExitCode {
         Err(Failure::Runtime(m)) => {
             eprintln!("sleek: error: {m}");
             ExitCode::from(1)
+        }
+        Err(Failure::Interrupted(m)) => {
+            eprintln!("sleek: {m}");
+            ExitCode::from(130)
         }
         Err(Failure::Quiet) => ExitCode::SUCCESS,
     }

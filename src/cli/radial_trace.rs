@@ -1,14 +1,17 @@
 //! `sleek trace --domain disk-radial [--rho R]`: radial SLE_κ (or SLE_κ(ρ)) in the unit disk.
 
+use super::args::MethodArg;
 use super::args::{DomainArg, Global, TraceArgs};
 use super::common::{self, out};
+use super::runs::{self, Outcome};
 use super::Failure;
-use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
 use sleek::audit::fmt_kappa;
 use sleek::domain::ChordalDomain;
 use sleek::loewner::Method;
 use sleek::plot::{PlaneFigure, Polyline};
 use sleek::radial::{RadialCurve, RadialSle};
+use std::path::Path;
 
 pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
     let usage = |m: &str| Err(Failure::Usage(m.to_string()));
@@ -50,42 +53,134 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
              resolution"
         ));
     }
-    let seed = common::resolve_seed(g);
-    let curves: Vec<RadialCurve> = (0..a.count)
-        .into_par_iter()
-        .map(|i| sle.sample_with(seed, i, method))
-        .collect();
-    let name = match a.rho {
-        Some(r) => format!("radial SLE_{}({})", fmt_kappa(kappa), r),
-        None => format!("radial SLE_{}", fmt_kappa(kappa)),
+    let method_arg = a.method;
+    let job = RadialJob {
+        kappa,
+        rho: a.rho,
+        time,
+        steps,
+        method: method_arg,
+        count: a.count,
     };
+    // Kept: about 48 bytes a point per curve; while a curve is built, its block tree takes
+    // about 400 bytes a point (measured at 10⁶ points: 398 MiB), one curve per thread.
+    let threads = rayon::current_num_threads() as f64;
+    let bytes = a.count as f64 * (steps as f64 + 1.0) * 48.0
+        + threads.min(a.count as f64) * steps as f64 * 400.0;
+    common::check_memory(
+        bytes,
+        &format!("--count {} radial curves of {steps} steps", a.count),
+    )?;
+    let mut plan = runs::plan(g, &a.run, "radial-trace", a.count, &job)?;
+    let seed = plan.seed;
+    let data = match runs::execute(g, &mut plan, "curves", |i| {
+        RadialData::of(&sle.sample_with(seed, i, method))
+    })? {
+        Outcome::All(v) => v,
+        Outcome::ShardDone => return Ok(()),
+    };
+    let explicit = write_outputs(
+        &job,
+        seed,
+        &data,
+        a.export_csv.as_deref(),
+        a.export_json.as_deref(),
+        a.plot.as_deref(),
+    );
+    let rest = finish(g, &job, seed, data, runs::folder(&plan));
+    for w in explicit? {
+        common::note(g, &format!("wrote {w}"));
+    }
+    rest
+}
+
+/// Everything that determines a radial run's curves and outputs (recorded in a run folder).
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct RadialJob {
+    pub kappa: f64,
+    pub rho: Option<f64>,
+    pub time: f64,
+    pub steps: u64,
+    pub method: MethodArg,
+    pub count: u64,
+}
+
+/// One radial curve as journaled.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct RadialData {
+    pub t: Vec<f64>,
+    pub xi: Vec<f64>,
+    pub eta: Vec<f64>,
+    pub x: Vec<f64>,
+    pub y: Vec<f64>,
+    pub stopped_at: Option<f64>,
+}
+
+impl RadialData {
+    fn of(c: &RadialCurve) -> Self {
+        RadialData {
+            t: c.times.clone(),
+            xi: c.driving.clone(),
+            eta: c.force.clone(),
+            x: c.points.iter().map(|z| z.re).collect(),
+            y: c.points.iter().map(|z| z.im).collect(),
+            stopped_at: c.stopped_at,
+        }
+    }
+    fn point(&self, k: usize) -> (f64, f64) {
+        (self.x[k], self.y[k])
+    }
+}
+
+fn name_of(job: &RadialJob) -> String {
+    match job.rho {
+        Some(r) => format!("radial SLE_{}({})", fmt_kappa(job.kappa), r),
+        None => format!("radial SLE_{}", fmt_kappa(job.kappa)),
+    }
+}
+
+/// Write the CSV, JSON and figure of a radial run where asked.
+fn write_outputs(
+    job: &RadialJob,
+    seed: u64,
+    curves: &[RadialData],
+    csv_path: Option<&Path>,
+    json_path: Option<&Path>,
+    plot_path: Option<&Path>,
+) -> Result<Vec<String>, Failure> {
+    let (kappa, time, steps) = (job.kappa, job.time, job.steps);
+    let method = super::trace_cmd::method(job.method);
+    let name = name_of(job);
+    for (i, c) in curves.iter().enumerate() {
+        if c.x.len() != c.t.len() || c.y.len() != c.t.len() {
+            return Err(Failure::Runtime(format!(
+                "curve {i}: {} times but {} x and {} y",
+                c.t.len(),
+                c.x.len(),
+                c.y.len()
+            )));
+        }
+    }
     let mut written = Vec::new();
-    let csv_path = a
-        .export_csv
-        .clone()
-        .or_else(|| common::in_out(g, "trace.csv"));
-    if let Some(p) = &csv_path {
+    if let Some(p) = csv_path {
         let mut text = String::from("curve,index,t,x,y\n");
-        for c in &curves {
-            for (k, (z, t)) in c.points.iter().zip(&c.times).enumerate() {
-                if !(z.re.is_finite() && z.im.is_finite()) {
+        for (i, c) in curves.iter().enumerate() {
+            for (k, t) in c.t.iter().enumerate() {
+                let (x, y) = c.point(k);
+                if !(x.is_finite() && y.is_finite() && t.is_finite()) {
                     return Err(Failure::Runtime(format!(
-                        "curve {} point {k} is not finite; nothing written to {}",
-                        c.index,
+                        "curve {i} point {k} is not finite; nothing written to {}",
                         p.display()
                     )));
                 }
-                text.push_str(&format!("{},{k},{t},{},{}\n", c.index, z.re, z.im));
+                text.push_str(&format!("{i},{k},{t},{x},{y}\n"));
             }
         }
         common::write_file(p, text.as_bytes())?;
         written.push(p.display().to_string());
     }
-    let json_path = a
-        .export_json
-        .clone()
-        .or_else(|| common::in_out(g, "trace.json"));
-    if let Some(p) = &json_path {
+    if let Some(p) = json_path {
+        sleek::finite::ensure_finite(curves, &p.display().to_string()).map_err(Failure::Runtime)?;
         let rec = serde_json::json!({
             "format": "sleek/radial-trace",
             "format_version": sleek::io::FORMAT_VERSION,
@@ -94,18 +189,18 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
                            dg/dt = g (e^{i xi} + g)/(e^{i xi} - g), g'(0) = e^t; \
                            force point (with rho) starts just clockwise of 1",
             "kappa": kappa,
-            "rho": a.rho,
+            "rho": job.rho,
             "seed": seed,
             "time": time,
             "steps": steps,
             "method": method.name(),
-            "curves": curves.iter().map(|c| serde_json::json!({
-                "curve": c.index,
-                "t": c.times,
-                "xi": c.driving,
-                "eta": c.force,
-                "x": c.points.iter().map(|z| z.re).collect::<Vec<_>>(),
-                "y": c.points.iter().map(|z| z.im).collect::<Vec<_>>(),
+            "curves": curves.iter().enumerate().map(|(i, c)| serde_json::json!({
+                "curve": i,
+                "t": c.t,
+                "xi": c.xi,
+                "eta": c.eta,
+                "x": c.x,
+                "y": c.y,
                 "stopped_at": c.stopped_at,
             })).collect::<Vec<_>>(),
         });
@@ -113,8 +208,7 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
         common::write_file(p, text.as_bytes())?;
         written.push(p.display().to_string());
     }
-    let plot_path = a.plot.clone().or_else(|| common::in_out(g, "trace.svg"));
-    if let Some(p) = &plot_path {
+    if let Some(p) = plot_path {
         let stopped = curves.iter().filter(|c| c.stopped_at.is_some()).count();
         let mut caption = vec![
             format!(
@@ -141,10 +235,15 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
             caption,
             curves: curves
                 .iter()
-                .map(|c| Polyline {
-                    points: c.points.clone(),
-                    label: (curves.len() > 1 && curves.len() <= 12)
-                        .then(|| format!("curve {}", c.index)),
+                .enumerate()
+                .map(|(i, c)| Polyline {
+                    points: c
+                        .x
+                        .iter()
+                        .zip(&c.y)
+                        .map(|(&x, &y)| num_complex::Complex64::new(x, y))
+                        .collect(),
+                    label: (curves.len() > 1 && curves.len() <= 12).then(|| format!("curve {i}")),
                 })
                 .collect(),
             domain: ChordalDomain::Disk,
@@ -154,14 +253,40 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
         fig.draw(p)?;
         written.push(p.display().to_string());
     }
+    Ok(written)
+}
+
+/// Write a complete radial run's folder files (trace.csv, trace.json, trace.svg) and print its
+/// table (shared with `merge`).
+pub fn finish(
+    g: &Global,
+    job: &RadialJob,
+    seed: u64,
+    curves: Vec<RadialData>,
+    dir: Option<&Path>,
+) -> Result<(), Failure> {
+    let (kappa, time, steps) = (job.kappa, job.time, job.steps);
+    let method = super::trace_cmd::method(job.method);
+    let name = name_of(job);
+    let written = match dir {
+        Some(d) => write_outputs(
+            job,
+            seed,
+            &curves,
+            Some(&d.join("trace.csv")),
+            Some(&d.join("trace.json")),
+            Some(&d.join("trace.svg")),
+        )?,
+        None => Vec::new(),
+    };
     if g.json {
         let rec = serde_json::json!({
             "format": "sleek/radial-trace-summary",
-            "kappa": kappa, "rho": a.rho, "seed": seed, "time": time, "steps": steps,
+            "kappa": kappa, "rho": job.rho, "seed": seed, "time": time, "steps": steps,
             "method": method.name(),
-            "curves": curves.iter().map(|c| serde_json::json!({
-                "curve": c.index,
-                "end": [c.points.last().map(|z| z.re), c.points.last().map(|z| z.im)],
+            "curves": curves.iter().enumerate().map(|(i, c)| serde_json::json!({
+                "curve": i,
+                "end": [c.x.last(), c.y.last()],
                 "stopped_at": c.stopped_at,
             })).collect::<Vec<_>>(),
             "written": written,
@@ -174,12 +299,12 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
     }
     out!("{name}, seed {seed}, radial time {time}, {steps} steps");
     out!("{:>6} {:>24} {:>12}", "curve", "end point", "stopped at");
-    for c in &curves {
-        let e = c.points.last().copied().unwrap_or_default();
+    for (i, c) in curves.iter().enumerate() {
+        let (ex, ey) = c.point(c.x.len() - 1);
         out!(
             "{:>6} {:>24} {:>12}",
-            c.index,
-            format!("({:.5}, {:.5})", e.re, e.im),
+            i,
+            format!("({ex:.5}, {ey:.5})"),
             c.stopped_at
                 .map(|t| format!("{t:.4}"))
                 .unwrap_or_else(|| "—".into())

@@ -3,11 +3,13 @@
 
 use super::args::{Global, RadiiArgs};
 use super::common::{self, out};
+use super::runs::{self, Outcome};
 use super::Failure;
 use serde::Serialize;
 use sleek::cle::ExploreSettings;
 use sleek::laws::CleLaw;
-use sleek::radii::{self, RadiiSettings, RadiiSummary};
+use sleek::radii::{self, RadiiRun, RadiiSettings, RadiiSummary};
+use std::path::Path;
 
 #[derive(Serialize)]
 struct RadiiRecord<'a> {
@@ -110,11 +112,37 @@ pub fn run(g: &Global, a: &RadiiArgs) -> Result<(), Failure> {
         lambdas,
         nesting_at,
     };
-    let seed = common::resolve_seed(g);
-    let pb = common::progress(g, a.samples, "radii");
-    let run = radii::run(&settings, seed, &|| pb.inc(1))?;
-    pb.finish_and_clear();
-    let summary = radii::summarise(&run)?;
+    let explorer = radii::explorer(&settings)?;
+    let mut plan = runs::plan(g, &a.run, "radii", a.samples, &settings)?;
+    let seed = plan.seed;
+    let samples = match runs::execute(g, &mut plan, "radii", |i| radii::sample(&explorer, seed, i))?
+    {
+        Outcome::All(v) => v,
+        Outcome::ShardDone => return Ok(()),
+    };
+    let run = RadiiRun::from_samples(&settings, seed, samples);
+    if let Some(path) = &a.plot {
+        radii::law_figure(&run)?.draw(path)?;
+        common::note(g, &format!("wrote {}", path.display()));
+    }
+    if let Some(path) = &a.export_csv {
+        common::write_file(path, loops_csv(&run)?.as_bytes())?;
+        common::note(g, &format!("wrote {}", path.display()));
+    }
+    finish(g, &run, runs::folder(&plan))
+}
+
+/// The loop CSV, refused when a value is not finite.
+fn loops_csv(run: &RadiiRun) -> Result<String, Failure> {
+    sleek::finite::ensure_finite(&run.records, "loop records").map_err(Failure::Runtime)?;
+    Ok(radii::loops_csv(run))
+}
+
+/// Summarise a complete run, write the run folder's files (radii.json, radii-loops.csv,
+/// radii.svg) and print the table; shared by `radii` and `merge`.
+pub fn finish(g: &Global, run: &RadiiRun, dir: Option<&Path>) -> Result<(), Failure> {
+    let settings = &run.settings;
+    let summary = radii::summarise(run)?;
     let mut notes = vec![
         "all points of a sample are in one CLE configuration; loop ids are shared by points \
          that share a loop"
@@ -122,51 +150,57 @@ pub fn run(g: &Global, a: &RadiiArgs) -> Result<(), Failure> {
         format!(
             "discretisation: angle-process step {} (radial time); loops close at the end of the \
              step in which the Bessel bridge visited 2π, so each T_k carries a bias below one step",
-            a.step
+            settings.explore.h_max
         ),
     ];
     if summary.levels.iter().any(|r| r.censored > 0) {
         notes.push(format!(
             "some samples stopped before finding all levels (radial time budget {:.0}); their \
              missing levels are left out of the statistics",
-            explore.max_time
+            settings.explore.max_time
         ));
-    }
-    if let Some(path) = &a.plot {
-        radii::law_figure(&run)?.draw(path)?;
-        common::note(g, &format!("wrote {}", path.display()));
-    }
-    if let Some(path) = &a.export_csv {
-        common::write_file(path, radii::loops_csv(&run).as_bytes())?;
-        common::note(g, &format!("wrote {}", path.display()));
     }
     let record = RadiiRecord {
         format: "sleek/radii",
         format_version: 1,
         sleek_version: env!("CARGO_PKG_VERSION"),
-        seed,
-        settings: &settings,
+        seed: run.seed,
+        settings,
         steps: run.steps,
         summary: &summary,
         law_source: "Schramm, Sheffield & Wilson, Commun. Math. Phys. 2009 (conformal radius \
                      law); nesting: Miller, Watson & Wilson, Ann. Probab. 2016",
         notes,
     };
+    let (bad, count) = sleek::finite::non_finite_fields(&record, 3);
+    if count > 0 {
+        common::warn(&format!(
+            "{count} summary value(s) are not finite and appear as null in the JSON: {}",
+            bad.join(", ")
+        ));
+    }
     let json = serde_json::to_string_pretty(&record)
         .map_err(|e| Failure::Runtime(format!("cannot encode JSON: {e}")))?;
-    if let Some(p) = common::in_out(g, "radii.json") {
-        if let Some(d) = p.parent() {
-            std::fs::create_dir_all(d)
-                .map_err(|e| Failure::Runtime(format!("cannot create {}: {e}", d.display())))?;
-        }
-        common::write_file(&p, json.as_bytes())?;
-        common::note(g, &format!("wrote {}", p.display()));
+    if let Some(d) = dir {
+        let p = d.join("radii.json");
+        common::write_file(&p, format!("{json}\n").as_bytes())?;
+        let csv = d.join("radii-loops.csv");
+        common::write_file(&csv, loops_csv(run)?.as_bytes())?;
+        let svg = d.join("radii.svg");
+        radii::law_figure(run)?.draw(&svg)?;
+        common::note(
+            g,
+            &format!(
+                "wrote radii.json, radii-loops.csv, radii.svg in {}",
+                d.display()
+            ),
+        );
     }
     if g.json {
         out!("{json}");
         return Ok(());
     }
-    print_table(&record, &points)
+    print_table(&record, &settings.points)
 }
 
 fn print_table(r: &RadiiRecord, points: &[[f64; 2]]) -> Result<(), Failure> {

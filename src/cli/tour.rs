@@ -122,6 +122,7 @@ pub fn run(g: &Global) -> Result<(), Failure> {
     let mut written = Vec::new();
     for (i, sc) in GALLERY.iter().enumerate() {
         let a = TraceArgs {
+            run: Default::default(),
             kappa: Some(sc.kappa),
             time: Some(sc.time),
             count: sc.count,

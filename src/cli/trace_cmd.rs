@@ -2,9 +2,11 @@
 
 use super::args::{DomainArg, Global, MethodArg, StepArg, TraceArgs};
 use super::common::out;
-use super::common::{in_out, note, progress, resolve_seed, warn, write_file};
+use super::common::{note, progress, resolve_seed, warn, write_file};
+use super::runs::{self, Outcome};
 use super::Failure;
 use rayon::prelude::*;
+use serde::Deserialize;
 use serde::Serialize;
 use sleek::audit::fmt_kappa;
 use sleek::domain::ChordalDomain;
@@ -42,6 +44,88 @@ pub struct TraceRun {
     pub curves: Vec<ChordalCurve>,
     pub settings: TraceSettings,
     pub domain: ChordalDomain,
+}
+
+/// Everything that determines a sampled run's curves and outputs (the settings recorded in a
+/// run folder's manifest).
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct TraceJob {
+    pub kappa: f64,
+    pub time: f64,
+    pub resolution: Resolution,
+    pub step: StepArg,
+    pub method: MethodArg,
+    pub domain: DomainArg,
+    pub count: u64,
+}
+
+/// One sampled curve as journaled: driving function and points in H.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct CurveData {
+    pub t: Vec<f64>,
+    pub w: Vec<f64>,
+    pub x: Vec<f64>,
+    pub y: Vec<f64>,
+    pub max_spacing: f64,
+    pub target_met: bool,
+    pub depth_limited: usize,
+    pub passes: usize,
+}
+
+impl CurveData {
+    fn of(c: &ChordalCurve) -> Self {
+        CurveData {
+            t: c.driving.times().to_vec(),
+            w: c.driving.values().to_vec(),
+            x: c.points.iter().map(|z| z.re).collect(),
+            y: c.points.iter().map(|z| z.im).collect(),
+            max_spacing: c.max_spacing,
+            target_met: c.target_met,
+            depth_limited: c.depth_limited,
+            passes: c.passes,
+        }
+    }
+
+    fn into_curve(self, index: u64) -> Result<ChordalCurve, Failure> {
+        if self.x.len() != self.y.len() || self.x.len() != self.t.len() {
+            return Err(Failure::Runtime(format!(
+                "curve {index}: {} times, {} x and {} y in the journal",
+                self.t.len(),
+                self.x.len(),
+                self.y.len()
+            )));
+        }
+        let driving = sleek::driving::DrivingFunction::new(self.t, self.w)
+            .map_err(|e| Failure::Runtime(format!("curve {index} in the journal: {e}")))?;
+        Ok(ChordalCurve {
+            index,
+            driving,
+            points: self
+                .x
+                .iter()
+                .zip(&self.y)
+                .map(|(&x, &y)| num_complex::Complex64::new(x, y))
+                .collect(),
+            max_spacing: self.max_spacing,
+            target_met: self.target_met,
+            depth_limited: self.depth_limited,
+            passes: self.passes,
+        })
+    }
+}
+
+fn settings_of(job: &TraceJob, seed: u64) -> TraceSettings {
+    TraceSettings {
+        kappa: Some(job.kappa),
+        seed: Some(seed),
+        time: job.time,
+        step: step_kind(job.step).name(),
+        method: method(job.method).name(),
+        resolution: describe_resolution(&job.resolution),
+        resolution_settings: Some(job.resolution),
+        domain: domain(job.domain).name(),
+        driving_source: "brownian".into(),
+    }
 }
 
 #[derive(Serialize)]
@@ -110,6 +194,48 @@ pub fn describe_resolution(r: &Resolution) -> String {
     }
 }
 
+/// The job and sampler of a Brownian `trace` invocation (validated, with the memory check).
+fn job_of(a: &TraceArgs) -> Result<(TraceJob, ChordalSle), Failure> {
+    let kappa = a
+        .kappa
+        .ok_or_else(|| Failure::Usage("--kappa is required".into()))?;
+    let time = a.time.unwrap_or(1.0);
+    let res = resolution_of(a, time);
+    let sampler = ChordalSle::new(kappa, time, res, step_kind(a.step), method(a.method))?;
+    if kappa > 8.0 {
+        warn(&format!(
+            "κ = {} > 8: SLE_κ is space-filling; the discretised trace fills the plane only \
+             down to its spacing, and the figure shows a dense scribble",
+            fmt_kappa(kappa)
+        ));
+    }
+    // All curves are held in memory until exported.
+    let per_curve = match res {
+        Resolution::Points(n) => n as f64,
+        Resolution::Spacing(r) => (r.max_points as f64).min(2e4),
+    };
+    let bytes = a.count as f64 * (per_curve + 1.0) * 200.0;
+    super::common::check_memory(
+        bytes,
+        &format!(
+            "--count {} curves of about {per_curve:.0} points (≈ 200 bytes a point)",
+            a.count
+        ),
+    )?;
+    Ok((
+        TraceJob {
+            kappa,
+            time,
+            resolution: res,
+            step: a.step,
+            method: a.method,
+            domain: a.domain,
+            count: a.count,
+        },
+        sampler,
+    ))
+}
+
 /// Sample (or trace) the curves of a `trace` invocation.
 pub fn sample(g: &Global, a: &TraceArgs) -> Result<TraceRun, Failure> {
     let step = step_kind(a.step);
@@ -155,33 +281,7 @@ pub fn sample(g: &Global, a: &TraceArgs) -> Result<TraceRun, Failure> {
             domain: dom,
         });
     }
-    let kappa = a
-        .kappa
-        .ok_or_else(|| Failure::Usage("--kappa is required".into()))?;
-    let time = a.time.unwrap_or(1.0);
-    let res = resolution_of(a, time);
-    let sampler = ChordalSle::new(kappa, time, res, step, meth)?;
-    if kappa > 8.0 {
-        warn(&format!(
-            "κ = {} > 8: SLE_κ is space-filling; the discretised trace fills the plane only \
-             down to its spacing, and the figure shows a dense scribble",
-            fmt_kappa(kappa)
-        ));
-    }
-    // All curves are held in memory until exported: refuse runs that cannot fit.
-    let per_curve = match res {
-        Resolution::Points(n) => n as f64,
-        Resolution::Spacing(r) => (r.max_points as f64).min(2e4),
-    };
-    let bytes = a.count as f64 * (per_curve + 1.0) * 200.0;
-    if bytes > 16.0 * (1u64 << 30) as f64 {
-        return Err(Failure::Usage(format!(
-            "--count {} needs about {:.0} GiB for its curves (≈ 200 bytes a point); the limit is \
-             16 GiB: run fewer curves at a time (each curve depends only on --seed and its index)",
-            a.count,
-            bytes / (1u64 << 30) as f64
-        )));
-    }
+    let (job, sampler) = job_of(a)?;
     let seed = resolve_seed(g);
     let pb = progress(g, a.count, "curves");
     let curves: Vec<ChordalCurve> = (0..a.count)
@@ -193,21 +293,10 @@ pub fn sample(g: &Global, a: &TraceArgs) -> Result<TraceRun, Failure> {
         })
         .collect();
     pb.finish_and_clear();
-    let settings = TraceSettings {
-        kappa: Some(kappa),
-        seed: Some(seed),
-        time,
-        step: step.name(),
-        method: meth.name(),
-        resolution: describe_resolution(&res),
-        resolution_settings: Some(res),
-        domain: dom.name(),
-        driving_source: "brownian".into(),
-    };
     Ok(TraceRun {
         curves,
-        settings,
-        domain: dom,
+        settings: settings_of(&job, seed),
+        domain: domain(job.domain),
     })
 }
 
@@ -306,7 +395,69 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
         return super::radial_trace::run(g, a);
     }
     super::common::check_plot_path(a.plot.as_deref())?;
-    let run = sample(g, a)?;
+    let (run, dir) = if a.driving.is_some() {
+        if a.run.shard.is_some() || a.run.resume {
+            return Err(Failure::Usage(
+                "--shard and --resume are for sampled curves, not --driving".into(),
+            ));
+        }
+        (sample(g, a)?, g.out.clone())
+    } else {
+        let (job, sampler) = job_of(a)?;
+        let mut plan = runs::plan(g, &a.run, "trace", a.count, &job)?;
+        let seed = plan.seed;
+        let data = match runs::execute(g, &mut plan, "curves", |i| {
+            CurveData::of(&sampler.sample(seed, i))
+        })? {
+            Outcome::All(v) => v,
+            Outcome::ShardDone => return Ok(()),
+        };
+        let dir = runs::folder(&plan).map(Path::to_path_buf);
+        (run_of(&job, seed, data)?, dir)
+    };
+    // Exports the user named explicitly come first: nothing computed is lost if the rest fails.
+    let explicit = export(
+        &run,
+        a.export_csv.as_deref(),
+        a.export_json.as_deref(),
+        a.plot.as_deref(),
+    );
+    let rest = report(g, &run, dir.as_deref());
+    explicit.map(|w| {
+        for w in w {
+            note(g, &format!("wrote {w}"));
+        }
+    })?;
+    rest
+}
+
+fn run_of(job: &TraceJob, seed: u64, data: Vec<CurveData>) -> Result<TraceRun, Failure> {
+    let curves = data
+        .into_iter()
+        .enumerate()
+        .map(|(i, d)| d.into_curve(i as u64))
+        .collect::<Result<Vec<_>, _>>()?;
+    Ok(TraceRun {
+        curves,
+        settings: settings_of(job, seed),
+        domain: domain(job.domain),
+    })
+}
+
+/// Write a complete sampled run's folder files and print its table (shared with `merge`).
+pub fn finish(
+    g: &Global,
+    job: &TraceJob,
+    seed: u64,
+    data: Vec<CurveData>,
+    dir: Option<&Path>,
+) -> Result<(), Failure> {
+    let run = run_of(job, seed, data)?;
+    report(g, &run, dir)
+}
+
+/// Warn about unmet targets, write trace.{csv,json,svg} in `dir`, print the table.
+fn report(g: &Global, run: &TraceRun, dir: Option<&Path>) -> Result<(), Failure> {
     let unmet: Vec<&ChordalCurve> = run.curves.iter().filter(|c| !c.target_met).collect();
     if !unmet.is_empty() {
         let deep: usize = unmet.iter().map(|c| c.depth_limited).sum();
@@ -325,28 +476,20 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
             unmet.iter().map(|c| c.max_spacing).fold(0.0, f64::max)
         ));
     }
-    // Exports first: nothing computed is lost if printing fails.
     let mut written = Vec::new();
     let mut export_error = None;
-    let mut keep = |r: Result<Vec<String>, Failure>| match r {
-        Ok(w) => written.extend(w),
-        Err(e) => {
-            export_error.get_or_insert(e);
+    if let Some(d) = dir {
+        std::fs::create_dir_all(d)
+            .map_err(|e| Failure::Runtime(format!("cannot create {}: {e}", d.display())))?;
+        match export(
+            run,
+            Some(&d.join("trace.csv")),
+            Some(&d.join("trace.json")),
+            Some(&d.join("trace.svg")),
+        ) {
+            Ok(w) => written.extend(w),
+            Err(e) => export_error = Some(e),
         }
-    };
-    keep(export(
-        &run,
-        a.export_csv.as_deref(),
-        a.export_json.as_deref(),
-        a.plot.as_deref(),
-    ));
-    if g.out.is_some() {
-        keep(export(
-            &run,
-            in_out(g, "trace.csv").as_deref(),
-            in_out(g, "trace.json").as_deref(),
-            in_out(g, "trace.svg").as_deref(),
-        ));
     }
     let summaries: Vec<CurveSummary> = run
         .curves
