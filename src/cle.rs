@@ -582,6 +582,32 @@ impl CleExplorer {
                 "a positive radial time",
             ));
         }
+        // Two marked points that start closer (pseudo-hyperbolically, in the frame of either)
+        // than the pinch rule can tell apart would be split onto separate branches at once, as if
+        // a loop had already separated them: refuse them (10·pinch leaves a margin; measured:
+        // at 1 − |φ| = 1e-8 the first loop came at T = 0.01, at 1e-5 and 1e-4 the law was
+        // unchanged).
+        for (i, a) in points.iter().enumerate() {
+            for b in &points[i + 1..] {
+                let closeness = 1.0 - ((b - a) / (1.0 - a.conj() * b)).norm();
+                if closeness < 10.0 * s.pinch {
+                    return Err(Error::param(
+                        "points",
+                        closeness,
+                        format!(
+                            "1 - |phi_a(b)| >= {:e} for every pair (the points ({}, {}) and \
+                             ({}, {}) are too close to each other relative to the circle to be \
+                             explored in one configuration; move them or use separate runs)",
+                            10.0 * s.pinch,
+                            a.re,
+                            a.im,
+                            b.re,
+                            b.im
+                        ),
+                    ));
+                }
+            }
+        }
         Ok(CleExplorer {
             process,
             settings,

@@ -9,7 +9,7 @@ use crate::driving::DrivingFunction;
 use crate::error::{Error, Result};
 use crate::sle::ChordalCurve;
 use serde::Serialize;
-use std::io::{BufRead, Write};
+use std::io::{BufRead, Read, Write};
 use std::path::Path;
 
 /// Version of the JSON layouts written by this crate (bumped on incompatible changes).
@@ -18,18 +18,37 @@ pub const FORMAT_VERSION: u32 = 1;
 /// Largest driving-function file accepted, in samples (keeps memory bounded on bad input).
 pub const MAX_DRIVING_SAMPLES: usize = 50_000_000;
 
+/// Longest line accepted in a driving-function file, in bytes.
+pub const MAX_DRIVING_LINE: usize = 4096;
+
 /// Parse a driving function from text: one sample `t,W` per line (comma, semicolon, tab or spaces
 /// between the two numbers), `#` starts a comment, and a first line that is not numeric is taken
 /// as a header. Times must start at 0 and increase strictly.
 ///
 /// # Errors
 /// [`Error::InvalidData`] naming the line that cannot be read, or the rule a sample breaks.
-pub fn read_driving(reader: impl BufRead) -> Result<DrivingFunction> {
+pub fn read_driving(mut reader: impl BufRead) -> Result<DrivingFunction> {
     let mut t = Vec::new();
     let mut w = Vec::new();
     let mut seen_data = false;
-    for (i, line) in reader.lines().enumerate() {
-        let line = line.map_err(|e| Error::InvalidData(format!("line {}: {e}", i + 1)))?;
+    let mut buf = Vec::new();
+    for i in 0usize.. {
+        buf.clear();
+        let n = (&mut reader)
+            .take(MAX_DRIVING_LINE as u64 + 1)
+            .read_until(b'\n', &mut buf)
+            .map_err(|e| Error::InvalidData(format!("line {}: {e}", i + 1)))?;
+        if n == 0 {
+            break;
+        }
+        if n > MAX_DRIVING_LINE {
+            return Err(Error::InvalidData(format!(
+                "line {}: longer than {MAX_DRIVING_LINE} bytes (expected 't,W')",
+                i + 1
+            )));
+        }
+        let line = std::str::from_utf8(&buf)
+            .map_err(|_| Error::InvalidData(format!("line {}: not UTF-8 text", i + 1)))?;
         let body = line.split('#').next().unwrap_or("").trim();
         if body.is_empty() {
             continue;

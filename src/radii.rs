@@ -139,8 +139,9 @@ pub struct MomentRow {
     pub std_error: f64,
     /// Exact E[CR^λ] (Schramm, Sheffield & Wilson 2009).
     pub exact: f64,
-    /// (estimate − exact)/std_error.
-    pub deviation_sigma: f64,
+    /// (estimate − exact)/std_error; absent when the standard error is zero (every sample
+    /// equal) or the exact value is not finite.
+    pub deviation_sigma: Option<f64>,
     /// True when λ ≤ −λ*/2: E[CR^{2λ}] = ∞, so the standard error is not meaningful.
     pub infinite_variance: bool,
 }
@@ -204,7 +205,7 @@ pub struct NestingRow {
     pub predicted: f64,
     /// Exact standard deviation of N(s) (one sample).
     pub predicted_sd: f64,
-    /// (mean − predicted)/mean_se.
+    /// (mean − predicted)/mean_se; absent with the mean, or when mean_se is zero.
     pub deviation_sigma: Option<f64>,
     /// Samples whose deepest loop found is still inside s (their count is only a lower bound);
     /// the mean is reported only when this is 0, since leaving them out would bias it down.
@@ -285,7 +286,8 @@ pub fn summarise(run: &RadiiRun) -> Result<RadiiSummary> {
                         estimate: mm.mean(),
                         std_error: se,
                         exact,
-                        deviation_sigma: (mm.mean() - exact) / se,
+                        deviation_sigma: (se > 0.0 && exact.is_finite())
+                            .then(|| (mm.mean() - exact) / se),
                         infinite_variance: l <= -0.5 * law.lambda_star(),
                     }
                 })
@@ -343,7 +345,8 @@ pub fn summarise(run: &RadiiRun) -> Result<RadiiSummary> {
                 mean_se: ok.then(|| c.std_error()),
                 predicted: exact.mean,
                 predicted_sd: exact.variance.max(0.0).sqrt(),
-                deviation_sigma: ok.then(|| (c.mean() - exact.mean) / c.std_error()),
+                deviation_sigma: (ok && c.std_error() > 0.0)
+                    .then(|| (c.mean() - exact.mean) / c.std_error()),
                 truncated,
             });
         }

@@ -364,3 +364,36 @@ fn misuse_of_shards_merges_and_resumes_is_refused_on_one_line() {
     std::fs::write(&j, &text).unwrap();
     ok(&["merge", &d("a1"), &d("a2"), "--out", &d("m")]);
 }
+
+#[test]
+fn progress_bars_stay_silent_when_stderr_is_not_a_terminal() {
+    // stderr is a pipe here: only the notes may appear, never a bar (no carriage returns, no
+    // bar characters, no rate/ETA text).
+    let tmp = tempfile::tempdir().unwrap();
+    let out = Command::new(bin())
+        .args(["radii", "-k", "6", "-m", "3000", "--seed", "5", "--out"])
+        .arg(tmp.path().join("r"))
+        .output()
+        .unwrap();
+    assert!(out.status.success());
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        !err.contains('\r') && !err.contains("eta") && !err.contains("=>"),
+        "{err}"
+    );
+    assert!(err.lines().all(|l| l.starts_with("sleek: ")), "{err}");
+    // --quiet removes the notes as well.
+    let out = Command::new(bin())
+        .args([
+            "radii", "-k", "6", "-m", "300", "--seed", "5", "--quiet", "--out",
+        ])
+        .arg(tmp.path().join("q"))
+        .output()
+        .unwrap();
+    assert!(out.status.success());
+    assert!(
+        out.stderr.is_empty(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+}

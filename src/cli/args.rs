@@ -36,9 +36,11 @@ pub struct Global {
     #[arg(long, global = true)]
     pub json: bool,
     /// Folder for the command's standard output files: trace.{csv,json,svg} for trace,
-    /// radii.json for radii, audit.{md,json} for audit, bench.json (bench-cle.json with --cle,
+    /// radii.{json,svg} and radii-loops.csv for radii, lattice-MODEL.csv for lattice (default
+    /// output/), audit.{md,json} for audit, bench.json (bench-cle.json with --cle,
     /// bench-radial.json with --radial) for bench, the gallery and report for the tour (default
-    /// output/); laws only prints.
+    /// output/), the merged run for merge; laws only prints. For the sampling commands (trace,
+    /// radii, lattice) the folder is also the run's journal: run.json and samples.jsonl.
     #[arg(long, global = true, value_name = "DIR")]
     pub out: Option<PathBuf>,
     /// No progress bars or notes on stderr (errors and warnings are still shown).
@@ -56,7 +58,10 @@ pub enum Command {
     /// slits (piecewise square-root driving, default) or vertical slits (piecewise constant).
     /// Cost on 2 cores: the fast method (default) about 2.5 s per 10⁵ points and 20–30 s per 10⁶,
     /// a few times more with refinement passes; the direct method N²/2 slit-map evaluations
-    /// (N = 10⁴: 2–4 s). Memory: about 190 bytes per point. `sleek bench` measures yours.
+    /// (N = 10⁴: 2–4 s). Memory: about 190 bytes per point of all curves (radial: 48 bytes a
+    /// point kept, plus about 400 bytes a point of the curve each thread is building); the
+    /// command warns above the memory available. Accepts --out (journaled run), --shard and
+    /// --resume like `radii`. `sleek bench` measures yours.
     Trace(TraceArgs),
     /// Exact values for a κ: trace dimension, phase, Schramm's left-passage probability, and the
     /// CLE_κ conformal-radius law (8/3 < κ < 8).
@@ -73,7 +78,13 @@ pub enum Command {
     /// ΔT_k = T_k − T_(k−1) follows the Schramm–Sheffield–Wilson law at every point. Loop ids
     /// are shared by points inside the same loop. Cost on 2 cores: 3–8·10⁶ steps per second;
     /// one level needs about E[T]/step steps per point (κ = 6, step 0.01: about 1100), e.g.
-    /// 10⁴ samples × 3 points × 2 levels at κ = 6 in about 30 s.
+    /// 10⁴ samples × 3 points × 2 levels at κ = 6 in about 30 s. Memory: about 100 bytes per
+    /// loop record (samples × points × levels), 250 with --out (the journal is read back); the
+    /// command warns when that exceeds the memory available and refuses above 64 GiB.
+    ///
+    /// Long runs: with --out DIR the run is journaled (Ctrl-C or SIGTERM stop it with every
+    /// finished sample saved; --resume continues it), --shard K/M runs a share of the samples
+    /// for `sleek merge`.
     Radii(RadiiArgs),
     /// Time the direct and fast trace methods in one run on this machine: fitted scaling
     /// exponents, speed-ups, fast-vs-direct agreement and peak memory (about a minute); with
@@ -95,11 +106,19 @@ pub enum Command {
     /// `measure` reads: percolation exploration (SLE_6), critical Ising interfaces (SLE_3),
     /// loop-erased random walk (radial SLE_2), percolation loops (CLE_6), in a disk of
     /// --radius lattice spacings, scaled to the unit disk.
+    ///
+    /// Cost per sample on one core, measured at radius 500 (it grows like radius²; Ising also
+    /// like --sweeps): percolation 0.3 s, loops 1.3 s, Ising with 60 sweeps 1.7 s, LERW under
+    /// 0.05 s. Memory: the samples are kept until the file is written, about 80 bytes a point,
+    /// with about 1.2·radius² points per percolation exploration and 5.5·radius² per loop
+    /// configuration (0.1·radius² for Ising); the command warns above the memory available.
+    /// Accepts --out (journaled run), --shard and --resume like `radii`.
     Lattice(LatticeArgs),
     /// Combine the folders of a sharded run (each made with --shard K/M --out DIR) into --out
     /// DIR: the parts must be shards of one run (same command, settings, seed and version),
     /// complete, disjoint and together complete; the result is byte for byte what the
-    /// unsharded run writes to its --out folder.
+    /// unsharded run writes to its --out folder. Memory: about three times the size of the
+    /// parts' samples.jsonl files.
     Merge(MergeArgs),
 }
 

@@ -39,8 +39,7 @@ pub fn write_reports(
     sleek::report::write_markdown(&mut buf, report, elapsed)
         .map_err(|e| Failure::Runtime(e.to_string()))?;
     write_file(md, &buf)?;
-    let text = serde_json::to_string_pretty(&audit_record(report, elapsed))
-        .map_err(|e| Failure::Runtime(e.to_string()))?;
+    let text = super::common::to_json(&audit_record(report, elapsed), "audit record")?;
     write_file(json, text.as_bytes())
 }
 
@@ -71,8 +70,7 @@ pub fn run(g: &Global, a: &AuditArgs) -> Result<(), Failure> {
     if g.json {
         out!(
             "{}",
-            serde_json::to_string_pretty(&audit_record(&report, elapsed))
-                .map_err(|e| Failure::Runtime(e.to_string()))?
+            super::common::to_json(&audit_record(&report, elapsed), "audit record")?
         );
     } else {
         let mut out = std::io::stdout().lock();

@@ -149,7 +149,7 @@ fn run_cle(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
 /// Write the JSON record to `--out/<name>` when given, and print it with --json; true when it was
 /// printed (the table is then skipped).
 fn write_record(g: &Global, name: &str, rec: &serde_json::Value) -> Result<bool, Failure> {
-    let text = serde_json::to_string_pretty(rec).map_err(|e| Failure::Runtime(e.to_string()))?;
+    let text = super::common::to_json(rec, "bench record")?;
     if let Some(p) = in_out(g, name) {
         write_file(&p, text.as_bytes())?;
         note(g, &format!("wrote {}", p.display()));

@@ -111,8 +111,9 @@ pub fn check_memory(bytes: f64, what: &str) -> Result<(), Failure> {
     const GIB: f64 = (1u64 << 30) as f64;
     if bytes > 64.0 * GIB {
         return Err(Failure::Usage(format!(
-            "{what} need about {:.0} GiB of memory; the limit is 64 GiB: split the run with \
-             --shard K/M (each sample depends only on --seed and its index)",
+            "{what} need about {:.0} GiB of memory; the limit is 64 GiB: reduce the run, or split it into \
+             runs with different --seed values (shards do not help: their merge holds the whole \
+             run)",
             bytes / GIB
         )));
     }
@@ -120,11 +121,26 @@ pub fn check_memory(bytes: f64, what: &str) -> Result<(), Failure> {
         if bytes > avail {
             warn(&format!(
                 "{what} need about {:.1} GiB of memory but {:.1} GiB is available: the run may \
-                 be killed; consider --shard K/M",
+                 be killed",
                 bytes / GIB,
                 avail / GIB
             ));
         }
     }
     Ok(())
+}
+
+/// Encode a JSON export (pretty-printed), warning on stderr when a value is not finite: JSON
+/// has no NaN, so such a value is written as `null`, and the warning names its field.
+pub fn to_json<T: serde::Serialize>(value: &T, what: &str) -> Result<String, Failure> {
+    let (bad, count) = sleek::finite::non_finite_fields(value, 3);
+    if count > 0 {
+        warn(&format!(
+            "{what}: {count} value(s) not finite, written as null: {}{}",
+            bad.join(", "),
+            if count > bad.len() { ", …" } else { "" }
+        ));
+    }
+    serde_json::to_string_pretty(value)
+        .map_err(|e| Failure::Runtime(format!("cannot encode {what} as JSON: {e}")))
 }

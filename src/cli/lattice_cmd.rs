@@ -27,12 +27,20 @@ pub fn run(g: &Global, a: &LatticeArgs) -> Result<(), Failure> {
         sweeps: a.sweeps,
         count: a.count,
     };
-    // Per worker thread: the lattice (about 40 bytes a site, π·radius² sites, three times for
-    // Ising's cluster work); kept: the curves, at most a few times radius^1.75 points each.
-    let sites = std::f64::consts::PI * (radius as f64).powi(2);
+    // Measured (radius 500 and 1000, 1 and 4 samples): the samples are kept until the file is
+    // written, about 80 bytes a point, with about 1.2 r² points per percolation exploration,
+    // 5.5 r² per percolation-loop configuration, 0.1 r² per Ising interface and fewer per LERW;
+    // each worker thread also holds its lattice, about 16 bytes a site (π r² sites).
+    let r2 = (radius as f64).powi(2);
+    let per_sample = match a.model {
+        LatticeModel::Percolation => 1.2 * r2,
+        LatticeModel::Loops => 5.5 * r2,
+        LatticeModel::Ising => 0.1 * r2,
+        LatticeModel::Lerw => 0.05 * r2,
+    } * 80.0;
     let threads = rayon::current_num_threads() as f64;
-    let bytes = threads.min(a.count as f64) * sites * 120.0
-        + a.count as f64 * 4.0 * (radius as f64).powf(1.75) * 16.0;
+    let bytes = a.count as f64 * per_sample
+        + threads.min(a.count as f64) * std::f64::consts::PI * r2 * 16.0;
     check_memory(
         bytes,
         &format!("--count {} samples at --radius {radius}", a.count),
@@ -138,7 +146,7 @@ fn report(
             "curves": count, "points": points, "seconds": elapsed,
             "file": path.display().to_string(),
         });
-        out!("{}", serde_json::to_string_pretty(&rec).unwrap_or_default());
+        out!("{}", super::common::to_json(&rec, "lattice summary")?);
     } else {
         out!("model            {name} (scaling limit: {limit})");
         out!("lattice          triangular, disk of radius {radius} spacings, scaled to the unit disk (spacing {:.2e})", lattice::lattice_spacing(&disk));

@@ -149,10 +149,7 @@ pub fn run(g: &Global, a: &LawsArgs) -> Result<(), Failure> {
         cle_note,
     };
     if g.json {
-        out!(
-            "{}",
-            serde_json::to_string_pretty(&rec).map_err(|e| Failure::Runtime(e.to_string()))?
-        );
+        out!("{}", super::common::to_json(&rec, "laws record")?);
         return Ok(());
     }
     out!("SLE_κ with κ = {}", fmt_kappa(k));

@@ -174,6 +174,13 @@ pub fn run(g: &Global, a: &MeasureArgs) -> Result<(), Failure> {
         let mut s = String::from("curve,t,w\n");
         for (k, m) in measured.iter().enumerate() {
             for (t, w) in m.unzip.times.iter().zip(&m.unzip.driving) {
+                if !(t.is_finite() && w.is_finite()) {
+                    return Err(Failure::Runtime(format!(
+                        "curve {k}: the recovered driving function is not finite at t = {t} \
+                         (W = {w}); nothing written to {}",
+                        p.display()
+                    )));
+                }
                 let _ = writeln!(s, "{k},{t:e},{w:e}");
             }
         }
@@ -207,7 +214,7 @@ pub fn run(g: &Global, a: &MeasureArgs) -> Result<(), Failure> {
                 "bootstrap": kappa.bootstrap, "block": kappa.block, "warnings": kappa.warnings},
             "seconds_unzip": unzip_seconds,
         });
-        println!("{}", serde_json::to_string_pretty(&rec).unwrap_or_default());
+        println!("{}", super::common::to_json(&rec, "measure summary")?);
         return Ok(());
     }
     let total_points: usize = measured.iter().map(|m| m.unzip.steps()).sum();
@@ -284,7 +291,7 @@ fn loops(g: &Global, a: &MeasureArgs) -> Result<(), Failure> {
     if g.json {
         let rec = serde_json::json!({"schema": 1, "version": env!("CARGO_PKG_VERSION"), "at": [x, y],
             "loops_read": loops.len(), "surrounding": found, "seconds": secs});
-        println!("{}", serde_json::to_string_pretty(&rec).unwrap_or_default());
+        println!("{}", super::common::to_json(&rec, "measure summary")?);
         return Ok(());
     }
     println!(

@@ -15,6 +15,17 @@ pub fn run(g: &Global, a: &MergeArgs) -> Result<(), Failure> {
         ));
     };
     let out_canon = std::fs::canonicalize(&out).ok();
+    // The merge holds every sample as journal text and parsed: about three times the journals.
+    let journal_bytes: u64 = a
+        .parts
+        .iter()
+        .filter_map(|d| std::fs::metadata(d.join(journal::SAMPLES)).ok())
+        .map(|m| m.len())
+        .sum();
+    super::common::check_memory(
+        3.0 * journal_bytes as f64,
+        &format!("merging {journal_bytes} bytes of sample journals"),
+    )?;
     let mut parts = Vec::new();
     for dir in &a.parts {
         if out_canon.is_some() && std::fs::canonicalize(dir).ok() == out_canon {

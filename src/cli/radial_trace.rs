@@ -291,10 +291,7 @@ pub fn finish(
             })).collect::<Vec<_>>(),
             "written": written,
         });
-        out!(
-            "{}",
-            serde_json::to_string_pretty(&rec).map_err(|e| Failure::Runtime(e.to_string()))?
-        );
+        out!("{}", common::to_json(&rec, "radial summary")?);
         return Ok(());
     }
     out!("{name}, seed {seed}, radial time {time}, {steps} steps");

@@ -519,10 +519,7 @@ fn report(g: &Global, run: &TraceRun, dir: Option<&Path>) -> Result<(), Failure>
             settings: &run.settings,
             curves: summaries,
         };
-        out!(
-            "{}",
-            serde_json::to_string_pretty(&s).map_err(|e| Failure::Runtime(e.to_string()))?
-        );
+        out!("{}", super::common::to_json(&s, "trace summary")?);
     } else {
         let s = &run.settings;
         out!(
