@@ -121,6 +121,22 @@ impl PlaneFigure {
     pub fn draw(&self, path: &Path) -> Result<()> {
         ensure_fonts();
         let ext = extension(path)?;
+        // The strip's start point (at −∞) is the one allowed non-finite point (not drawn).
+        let skip = usize::from(self.domain == crate::domain::ChordalDomain::Strip);
+        for (k, c) in self.curves.iter().enumerate() {
+            if let Some(j) = c
+                .points
+                .iter()
+                .skip(skip)
+                .position(|z| !(z.re.is_finite() && z.im.is_finite()))
+            {
+                return Err(Error::Numerical(format!(
+                    "{}: curve {k} point {} is not finite; nothing drawn",
+                    path.display(),
+                    j + skip
+                )));
+            }
+        }
         let (x0, x1, y0, y1) = self.view_box();
         // Equal scales: the plot area's aspect follows the data's, within limits; outside them
         // the shorter range is widened instead.
