@@ -35,13 +35,14 @@ pub fn read_driving(mut reader: impl BufRead) -> Result<DrivingFunction> {
     for i in 0usize.. {
         buf.clear();
         let n = (&mut reader)
-            .take(MAX_DRIVING_LINE as u64 + 1)
+            .take(MAX_DRIVING_LINE as u64 + 2)
             .read_until(b'\n', &mut buf)
             .map_err(|e| Error::InvalidData(format!("line {}: {e}", i + 1)))?;
         if n == 0 {
             break;
         }
-        if n > MAX_DRIVING_LINE {
+        // The cap counts the line without its newline.
+        if n - usize::from(buf.last() == Some(&b'\n')) > MAX_DRIVING_LINE {
             return Err(Error::InvalidData(format!(
                 "line {}: longer than {MAX_DRIVING_LINE} bytes (expected 't,W')",
                 i + 1

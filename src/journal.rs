@@ -22,7 +22,7 @@ use crate::error::{Error, Result};
 use serde::{Deserialize, Serialize};
 use std::collections::BTreeMap;
 use std::fs::File;
-use std::io::{BufRead, BufReader, BufWriter, Read, Seek, SeekFrom, Write};
+use std::io::{BufRead, BufReader, BufWriter, Read, Write};
 use std::ops::Range;
 use std::path::{Path, PathBuf};
 use std::sync::Mutex;
@@ -356,6 +356,8 @@ pub struct Journal {
     pub valid_len: u64,
     /// True when the file ended in a partial line (a run killed while writing).
     pub partial_tail: bool,
+    /// With recovery: the first malformed line, where reading stopped.
+    pub damaged_at: Option<u64>,
 }
 
 /// Parse a journal from a reader. Lines must be `{"i":INDEX,"d":DATA}` with INDEX in `range`,
@@ -366,6 +368,29 @@ pub struct Journal {
 /// [`Error::InvalidData`] naming the line for a malformed line, an index out of range or
 /// repeated, or an oversized line.
 pub fn parse_journal(reader: impl Read, range: Range<u64>, origin: &str) -> Result<Journal> {
+    parse_journal_with(reader, range, origin, false)
+}
+
+/// As [`parse_journal`], but a malformed line (as a machine crash can leave: zero-filled or cut
+/// blocks) ends the journal instead of failing: the lines from there on are dropped and
+/// [`Journal::damaged_at`] names the first of them. For resuming, which reruns what is dropped.
+///
+/// # Errors
+/// As [`parse_journal`] for index problems before the damage.
+pub fn parse_journal_recovering(
+    reader: impl Read,
+    range: Range<u64>,
+    origin: &str,
+) -> Result<Journal> {
+    parse_journal_with(reader, range, origin, true)
+}
+
+fn parse_journal_with(
+    reader: impl Read,
+    range: Range<u64>,
+    origin: &str,
+    recover: bool,
+) -> Result<Journal> {
     let mut r = BufReader::new(reader);
     let mut out = Journal::default();
     let mut buf = Vec::new();
@@ -373,14 +398,14 @@ pub fn parse_journal(reader: impl Read, range: Range<u64>, origin: &str) -> Resu
     loop {
         buf.clear();
         let n = (&mut r)
-            .take(MAX_LINE_BYTES as u64 + 1)
+            .take(MAX_LINE_BYTES as u64 + 2)
             .read_until(b'\n', &mut buf)
             .map_err(|e| Error::InvalidData(format!("{origin}: {e}")))?;
         if n == 0 {
             break;
         }
         line_no += 1;
-        if buf.last() != Some(&b'\n') {
+        if buf.last() != Some(&b'\n') || n > MAX_LINE_BYTES + 1 {
             if n > MAX_LINE_BYTES {
                 return Err(Error::InvalidData(format!(
                     "{origin} line {line_no}: longer than {MAX_LINE_BYTES} bytes"
@@ -389,17 +414,31 @@ pub fn parse_journal(reader: impl Read, range: Range<u64>, origin: &str) -> Resu
             out.partial_tail = true;
             break;
         }
-        let text = std::str::from_utf8(&buf[..n - 1])
-            .map_err(|_| Error::InvalidData(format!("{origin} line {line_no}: not valid UTF-8")))?;
-        if text.trim().is_empty() {
-            out.valid_len += n as u64;
-            continue;
-        }
-        let line: LineIn = serde_json::from_str(text).map_err(|e| {
-            Error::InvalidData(format!(
-                "{origin} line {line_no}: not a sample line {{\"i\":INDEX,\"d\":DATA}} ({e})"
-            ))
-        })?;
+        let parsed = std::str::from_utf8(&buf[..n - 1])
+            .map_err(|_| format!("{origin} line {line_no}: not valid UTF-8"))
+            .and_then(|text| {
+                if text.trim().is_empty() {
+                    return Ok(None);
+                }
+                serde_json::from_str::<LineIn>(text).map(Some).map_err(|e| {
+                    format!(
+                        "{origin} line {line_no}: not a sample line {{\"i\":INDEX,\"d\":DATA}} \
+                         ({e})"
+                    )
+                })
+            });
+        let line = match parsed {
+            Ok(Some(l)) => l,
+            Ok(None) => {
+                out.valid_len += n as u64;
+                continue;
+            }
+            Err(_) if recover => {
+                out.damaged_at = Some(line_no);
+                break;
+            }
+            Err(m) => return Err(Error::InvalidData(m)),
+        };
         if !range.contains(&line.i) {
             return Err(Error::InvalidData(format!(
                 "{origin} line {line_no}: sample index {} outside this shard's range {}..{}",
@@ -421,20 +460,29 @@ pub fn parse_journal(reader: impl Read, range: Range<u64>, origin: &str) -> Resu
     Ok(out)
 }
 
-/// Read `dir/samples.jsonl` (an absent file is an empty journal).
+/// Read `dir/samples.jsonl` (an absent file is an empty journal); with `recover`, as
+/// [`parse_journal_recovering`].
 ///
 /// # Errors
 /// As [`parse_journal`], or an unreadable file.
-pub fn read_journal(dir: &Path, range: Range<u64>) -> Result<Journal> {
+pub fn read_journal_with(dir: &Path, range: Range<u64>, recover: bool) -> Result<Journal> {
     let path = dir.join(SAMPLES);
     match File::open(&path) {
-        Ok(f) => parse_journal(f, range, &path.display().to_string()),
+        Ok(f) => parse_journal_with(f, range, &path.display().to_string(), recover),
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => Ok(Journal::default()),
         Err(e) => Err(Error::Output(format!(
             "cannot read {}: {e}",
             path.display()
         ))),
     }
+}
+
+/// Read `dir/samples.jsonl` strictly (an absent file is an empty journal).
+///
+/// # Errors
+/// As [`parse_journal`], or an unreadable file.
+pub fn read_journal(dir: &Path, range: Range<u64>) -> Result<Journal> {
+    read_journal_with(dir, range, false)
 }
 
 /// The journal text of finished samples in index order (what a complete folder holds).
@@ -467,14 +515,20 @@ impl SampleLog {
     pub fn open(dir: &Path, valid_len: u64, interval: Duration) -> Result<SampleLog> {
         let path = dir.join(SAMPLES);
         let io = |e: std::io::Error| Error::Output(format!("cannot write {}: {e}", path.display()));
-        let mut f = std::fs::OpenOptions::new()
-            .create(true)
-            .truncate(false)
-            .write(true)
+        {
+            let f = std::fs::OpenOptions::new()
+                .create(true)
+                .truncate(false)
+                .write(true)
+                .open(&path)
+                .map_err(io)?;
+            f.set_len(valid_len).map_err(io)?;
+        }
+        // Append mode: every write lands at the end of the file, whatever else happened to it.
+        let f = std::fs::OpenOptions::new()
+            .append(true)
             .open(&path)
             .map_err(io)?;
-        f.set_len(valid_len).map_err(io)?;
-        f.seek(SeekFrom::Start(valid_len)).map_err(io)?;
         Ok(SampleLog {
             inner: Mutex::new((BufWriter::with_capacity(1 << 16, f), Instant::now())),
             path,
@@ -500,7 +554,9 @@ impl SampleLog {
             .map_err(|_| Error::Output("journal lock poisoned".into()))?;
         g.0.write_all(line.as_bytes()).map_err(io)?;
         if g.1.elapsed() >= self.interval {
+            // Flushed and synced, so a crash of the machine loses at most one interval.
             g.0.flush().map_err(io)?;
+            g.0.get_ref().sync_data().map_err(io)?;
             g.1 = Instant::now();
         }
         Ok(())
@@ -645,6 +701,16 @@ mod tests {
             journal_text(&j.samples),
             "{\"i\":3,\"d\":[1.5,2]}\n{\"i\":4,\"d\":{\"a\":1}}\n"
         );
+    }
+
+    #[test]
+    fn recovery_stops_at_a_damaged_line_and_strict_reading_refuses_it() {
+        let text = "{\"i\":1,\"d\":2}\n\0\0\0\n{\"i\":2,\"d\":3}\n";
+        assert!(parse_journal(text.as_bytes(), 0..10, "t").is_err());
+        let j = parse_journal_recovering(text.as_bytes(), 0..10, "t").unwrap();
+        assert_eq!(j.damaged_at, Some(2));
+        assert_eq!(j.samples.len(), 1);
+        assert_eq!(j.valid_len as usize, text.find('\0').unwrap());
     }
 
     #[test]

@@ -99,14 +99,40 @@ pub fn sample(explorer: &CleExplorer, seed: u64, i: u64) -> RadiiSample {
 
 impl RadiiRun {
     /// A run from its samples in index order.
-    pub fn from_samples(settings: &RadiiSettings, seed: u64, samples: Vec<RadiiSample>) -> Self {
+    ///
+    /// Errors: [`Error::InvalidData`] when a sample does not hold one record per marked point of
+    /// the settings (a journal edited or damaged by hand), or a record's loops are not at levels
+    /// 1, 2, … in order.
+    pub fn from_samples(
+        settings: &RadiiSettings,
+        seed: u64,
+        samples: Vec<RadiiSample>,
+    ) -> Result<Self> {
+        for (i, s) in samples.iter().enumerate() {
+            if s.points.len() != settings.points.len() {
+                return Err(Error::InvalidData(format!(
+                    "sample {i} holds {} point records; the settings have {} marked points",
+                    s.points.len(),
+                    settings.points.len()
+                )));
+            }
+            for rec in &s.points {
+                let ordered = rec.loops.iter().enumerate().all(|(k, l)| l.level == k + 1);
+                if !ordered || rec.loops.len() > settings.explore.levels {
+                    return Err(Error::InvalidData(format!(
+                        "sample {i}: the loops of a point are not levels 1..={} in order",
+                        settings.explore.levels
+                    )));
+                }
+            }
+        }
         let steps = samples.iter().map(|r| r.steps).sum();
-        RadiiRun {
+        Ok(RadiiRun {
             settings: settings.clone(),
             seed,
             records: samples.into_iter().map(|r| r.points).collect(),
             steps,
-        }
+        })
     }
 }
 
@@ -125,7 +151,7 @@ pub fn run(settings: &RadiiSettings, seed: u64, tick: &(dyn Fn() + Sync)) -> Res
             s
         })
         .collect();
-    Ok(RadiiRun::from_samples(settings, seed, rows))
+    RadiiRun::from_samples(settings, seed, rows)
 }
 
 /// One estimated moment beside its exact value.

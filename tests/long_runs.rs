@@ -218,14 +218,32 @@ fn killed_and_resumed_runs_equal_the_uninterrupted_run() {
                 "{manifest}"
             );
             assert!(err.contains("--resume"), "{err}");
+            // A crash of the machine can leave zero-filled blocks: a damaged line that the
+            // resume drops (with a warning), running its samples again.
+            use std::io::Write;
+            let mut f = std::fs::OpenOptions::new()
+                .append(true)
+                .open(dir.join("samples.jsonl"))
+                .unwrap();
+            f.write_all(b"\0\0\0\0\n{\"i\":5,\"d\":1}\n").unwrap();
         } else {
             assert!(manifest.contains("\"state\": \"running\""), "{manifest}");
+            // A kill can cut a line mid-way: add one by hand so the resume must drop it.
+            use std::io::Write;
+            let mut f = std::fs::OpenOptions::new()
+                .append(true)
+                .open(dir.join("samples.jsonl"))
+                .unwrap();
+            f.write_all(b"{\"i\":11999,\"d\":{\"steps\":12,\"po")
+                .unwrap();
         }
         // A fresh run on the unfinished folder is refused: work is not thrown away silently.
         let (code, _, e) = run_in(&strs(&with_out(&base, &dir, &[])), None);
         assert_eq!(code, 2, "{e}");
         assert!(e.contains("unfinished") && e.contains("--resume"), "{e}");
-        ok(&strs(&with_out(&base, &dir, &["--resume"])));
+        let (code, _, e) = run_in(&strs(&with_out(&base, &dir, &["--resume"])), None);
+        assert_eq!(code, 0, "{e}");
+        assert_eq!(e.contains("damaged"), signal == "TERM", "{e}");
         same_folders(&whole, &dir);
     }
 }
@@ -271,6 +289,14 @@ fn misuse_of_shards_merges_and_resumes_is_refused_on_one_line() {
     usage_error(
         &[&base[..], &["--shard", "1/41", "--out", &d("x")]].concat(),
         &["40"],
+    );
+    usage_error(
+        &[
+            &base[..],
+            &["--shard", "1/2", "--out", &d("x"), "--plot", &d("p.svg")],
+        ]
+        .concat(),
+        &["--plot", "sleek merge"],
     );
     usage_error(
         &[&base[..], &["--resume", "--out", &d("none")]].concat(),

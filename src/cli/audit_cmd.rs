@@ -18,6 +18,7 @@ pub fn run_audit(g: &Global, s: &AuditSettings) -> Result<(AuditReport, f64), Fa
 
 /// The canonical JSON record of an audit.
 fn audit_record(report: &AuditReport, elapsed: f64) -> serde_json::Value {
+    super::common::warn_non_finite(report, "audit record");
     serde_json::json!({
         "format": "sleek/audit",
         "format_version": sleek::io::FORMAT_VERSION,

@@ -29,6 +29,7 @@ pub fn run(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
             "bench.json",
         )
     };
+    super::common::warn_non_finite(&rep, "bench record");
     let rec = serde_json::json!({
         "format": "sleek/bench",
         "format_version": sleek::io::FORMAT_VERSION,
@@ -103,6 +104,7 @@ fn run_cle(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
         "timing the CLE exploration (one level per run, angle step 0.01)",
     );
     let rows = bench::run_cle(&kappas, a.cle_samples.min(1_000_000), seed)?;
+    super::common::warn_non_finite(&rows, "bench record");
     let rec = serde_json::json!({
         "format": "sleek/bench-cle",
         "format_version": sleek::io::FORMAT_VERSION,

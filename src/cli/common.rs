@@ -133,6 +133,15 @@ pub fn check_memory(bytes: f64, what: &str) -> Result<(), Failure> {
 /// Encode a JSON export (pretty-printed), warning on stderr when a value is not finite: JSON
 /// has no NaN, so such a value is written as `null`, and the warning names its field.
 pub fn to_json<T: serde::Serialize>(value: &T, what: &str) -> Result<String, Failure> {
+    warn_non_finite(value, what);
+    serde_json::to_string_pretty(value)
+        .map_err(|e| Failure::Runtime(format!("cannot encode {what} as JSON: {e}")))
+}
+
+/// Warn on stderr, naming the fields, when `value` holds a non-finite number. Call it on the
+/// typed data before building a `serde_json::json!` record: the macro turns NaN into `null`
+/// before any later check could see it.
+pub fn warn_non_finite<T: serde::Serialize + ?Sized>(value: &T, what: &str) {
     let (bad, count) = sleek::finite::non_finite_fields(value, 3);
     if count > 0 {
         warn(&format!(
@@ -141,6 +150,4 @@ pub fn to_json<T: serde::Serialize>(value: &T, what: &str) -> Result<String, Fai
             if count > bad.len() { ", …" } else { "" }
         ));
     }
-    serde_json::to_string_pretty(value)
-        .map_err(|e| Failure::Runtime(format!("cannot encode {what} as JSON: {e}")))
 }

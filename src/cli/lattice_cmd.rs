@@ -45,7 +45,14 @@ pub fn run(g: &Global, a: &LatticeArgs) -> Result<(), Failure> {
         bytes,
         &format!("--count {} samples at --radius {radius}", a.count),
     )?;
-    let mut plan = runs::plan(g, &a.run, "lattice", a.count, &job)?;
+    let mut plan = runs::plan(
+        g,
+        &a.run,
+        "lattice",
+        a.count,
+        &job,
+        &[format!("lattice-{}.csv", name_of(a.model).0)],
+    )?;
     let seed = plan.seed;
     let start = Instant::now();
     let samples = match runs::execute(g, &mut plan, name_of(a.model).0, |i| match a.model {

@@ -204,6 +204,7 @@ pub fn run(g: &Global, a: &MeasureArgs) -> Result<(), Failure> {
         "capacity time"
     };
     if g.json {
+        super::common::warn_non_finite(&report, "measure summary");
         let rec = serde_json::json!({
             "schema": 1, "version": env!("CARGO_PKG_VERSION"), "seed": seed,
             "domain": match a.domain { CurveDomainArg::HalfPlane => "half-plane", CurveDomainArg::Disk => "disk", CurveDomainArg::DiskRadial => "disk-radial", CurveDomainArg::Polygon => "polygon" }, "slit": slit.name(), "clock": clock,

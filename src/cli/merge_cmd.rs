@@ -56,11 +56,18 @@ pub fn run(g: &Global, a: &MergeArgs) -> Result<(), Failure> {
     }
     std::fs::create_dir_all(&out)
         .map_err(|e| Failure::Runtime(format!("cannot create {}: {e}", out.display())))?;
+    // The manifest goes last: until the merge has written everything, the folder holds no run
+    // (a crash half-way cannot leave new samples under an old manifest).
+    let manifest_path = out.join(journal::MANIFEST);
+    if manifest_path.exists() {
+        std::fs::remove_file(&manifest_path).map_err(|e| {
+            Failure::Runtime(format!("cannot remove {}: {e}", manifest_path.display()))
+        })?;
+    }
     write_file(
         &out.join(journal::SAMPLES),
         journal::journal_text(&samples).as_bytes(),
     )?;
-    manifest.write(&out)?;
     note(
         g,
         &format!(
@@ -71,7 +78,9 @@ pub fn run(g: &Global, a: &MergeArgs) -> Result<(), Failure> {
             manifest.seed
         ),
     );
-    finish(g, &manifest, &samples, &out)
+    finish(g, &manifest, &samples, &out)?;
+    manifest.write(&out)?;
+    Ok(())
 }
 
 /// Write a complete run's output files from its manifest and samples (as the command would).
@@ -92,7 +101,7 @@ fn finish(
             let s: sleek::radii::RadiiSettings =
                 serde_json::from_value(m.settings.clone()).map_err(|_| settings("radii"))?;
             let v = parse_samples(samples, out)?;
-            let run = sleek::radii::RadiiRun::from_samples(&s, m.seed, v);
+            let run = sleek::radii::RadiiRun::from_samples(&s, m.seed, v)?;
             super::radii_cmd::finish(g, &run, Some(out))
         }
         "trace" => {

@@ -71,7 +71,22 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
         bytes,
         &format!("--count {} radial curves of {steps} steps", a.count),
     )?;
-    let mut plan = runs::plan(g, &a.run, "radial-trace", a.count, &job)?;
+    runs::no_exports_with_shard(
+        &a.run,
+        &[
+            ("--plot", a.plot.is_some()),
+            ("--export-csv", a.export_csv.is_some()),
+            ("--export-json", a.export_json.is_some()),
+        ],
+    )?;
+    let mut plan = runs::plan(
+        g,
+        &a.run,
+        "radial-trace",
+        a.count,
+        &job,
+        &["trace.csv".into(), "trace.json".into(), "trace.svg".into()],
+    )?;
     let seed = plan.seed;
     let data = match runs::execute(g, &mut plan, "curves", |i| {
         RadialData::of(&sle.sample_with(seed, i, method))
@@ -152,7 +167,7 @@ fn write_outputs(
     let method = super::trace_cmd::method(job.method);
     let name = name_of(job);
     for (i, c) in curves.iter().enumerate() {
-        if c.x.len() != c.t.len() || c.y.len() != c.t.len() {
+        if c.t.is_empty() || c.x.len() != c.t.len() || c.y.len() != c.t.len() {
             return Err(Failure::Runtime(format!(
                 "curve {i}: {} times but {} x and {} y",
                 c.t.len(),
@@ -280,6 +295,7 @@ pub fn finish(
         None => Vec::new(),
     };
     if g.json {
+        common::warn_non_finite(&curves, "radial summary");
         let rec = serde_json::json!({
             "format": "sleek/radial-trace-summary",
             "kappa": kappa, "rho": job.rho, "seed": seed, "time": time, "steps": steps,
@@ -297,7 +313,10 @@ pub fn finish(
     out!("{name}, seed {seed}, radial time {time}, {steps} steps");
     out!("{:>6} {:>24} {:>12}", "curve", "end point", "stopped at");
     for (i, c) in curves.iter().enumerate() {
-        let (ex, ey) = c.point(c.x.len() - 1);
+        let (ex, ey) =
+            c.x.last()
+                .zip(c.y.last())
+                .map_or((f64::NAN, f64::NAN), |(x, y)| (*x, *y));
         out!(
             "{:>6} {:>24} {:>12}",
             i,

@@ -115,14 +115,32 @@ pub fn run(g: &Global, a: &RadiiArgs) -> Result<(), Failure> {
         nesting_at,
     };
     let explorer = radii::explorer(&settings)?;
-    let mut plan = runs::plan(g, &a.run, "radii", a.samples, &settings)?;
+    runs::no_exports_with_shard(
+        &a.run,
+        &[
+            ("--plot", a.plot.is_some()),
+            ("--export-csv", a.export_csv.is_some()),
+        ],
+    )?;
+    let mut plan = runs::plan(
+        g,
+        &a.run,
+        "radii",
+        a.samples,
+        &settings,
+        &[
+            "radii.json".into(),
+            "radii-loops.csv".into(),
+            "radii.svg".into(),
+        ],
+    )?;
     let seed = plan.seed;
     let samples = match runs::execute(g, &mut plan, "radii", |i| radii::sample(&explorer, seed, i))?
     {
         Outcome::All(v) => v,
         Outcome::ShardDone => return Ok(()),
     };
-    let run = RadiiRun::from_samples(&settings, seed, samples);
+    let run = RadiiRun::from_samples(&settings, seed, samples)?;
     if let Some(path) = &a.plot {
         radii::law_figure(&run)?.draw(path)?;
         common::note(g, &format!("wrote {}", path.display()));

@@ -44,27 +44,65 @@ fn install_handler() {
     });
 }
 
-/// Refuses a second process on the same run folder; removed when dropped.
+/// Refuses a second process on the same run folder (created exclusively; holds `host:pid`);
+/// removed when dropped.
 struct Lock(PathBuf);
 
 impl Lock {
     fn take(dir: &Path) -> Result<Lock, Failure> {
         let path = dir.join("run.lock");
-        if let Ok(text) = std::fs::read_to_string(&path) {
-            if let Ok(pid) = text.trim().parse::<u32>() {
-                if pid != std::process::id() && Path::new(&format!("/proc/{pid}")).exists() {
-                    return Err(Failure::Runtime(format!(
-                        "{} is in use by process {pid} (if it is not, remove {})",
-                        dir.display(),
-                        path.display()
-                    )));
+        let me = format!("{}:{}", host_name(), std::process::id());
+        let io =
+            |e: std::io::Error| Failure::Runtime(format!("cannot write {}: {e}", path.display()));
+        for _ in 0..2 {
+            match std::fs::OpenOptions::new()
+                .write(true)
+                .create_new(true)
+                .open(&path)
+            {
+                Ok(mut f) => {
+                    use std::io::Write;
+                    f.write_all(format!("{me}\n").as_bytes()).map_err(io)?;
+                    return Ok(Lock(path));
                 }
+                Err(e) if e.kind() == std::io::ErrorKind::AlreadyExists => {
+                    let owner = std::fs::read_to_string(&path).unwrap_or_default();
+                    let owner = owner.trim();
+                    let (host, pid) = owner.rsplit_once(':').unwrap_or(("", owner));
+                    let alive = match pid.parse::<u32>() {
+                        // A process of this machine: alive while /proc has it.
+                        Ok(pid) if host == host_name() => {
+                            Path::new(&format!("/proc/{pid}")).exists()
+                        }
+                        // Another machine (a shared file system): assume it is alive.
+                        Ok(_) => true,
+                        Err(_) => false,
+                    };
+                    if alive {
+                        return Err(Failure::Runtime(format!(
+                            "{} is in use by process {owner} (if it is not, remove {})",
+                            dir.display(),
+                            path.display()
+                        )));
+                    }
+                    // A stale lock left by a killed run: take it over.
+                    std::fs::remove_file(&path).map_err(io)?;
+                }
+                Err(e) => return Err(io(e)),
             }
         }
-        std::fs::write(&path, format!("{}\n", std::process::id()))
-            .map_err(|e| Failure::Runtime(format!("cannot write {}: {e}", path.display())))?;
-        Ok(Lock(path))
+        Err(Failure::Runtime(format!(
+            "cannot take the lock {} (another process keeps creating it)",
+            path.display()
+        )))
     }
+}
+
+/// This machine's name (for lock files on shared file systems).
+fn host_name() -> String {
+    std::fs::read_to_string("/proc/sys/kernel/hostname")
+        .map(|s| s.trim().to_string())
+        .unwrap_or_else(|_| "localhost".into())
 }
 
 impl Drop for Lock {
@@ -98,13 +136,15 @@ pub enum Outcome<T> {
 }
 
 /// Decide how the run goes: in memory (no `--out`), or journaled in the `--out` folder, fresh,
-/// as a shard, or resumed.
+/// as a shard, or resumed. `outputs` are the file names the command writes in its folder (removed
+/// when a new run replaces a finished one).
 pub fn plan<S: Serialize>(
     g: &Global,
     r: &RunArgs,
     command: &str,
     samples: u64,
     settings: &S,
+    outputs: &[String],
 ) -> Result<Plan, Failure> {
     let Some(dir) = g.out.clone() else {
         if r.shard.is_some() || r.resume {
@@ -162,7 +202,14 @@ pub fn plan<S: Serialize>(
                 old.shard
             )));
         }
-        let j = journal::read_journal(&dir, m.range())?;
+        let j = journal::read_journal_with(&dir, m.range(), true)?;
+        if let Some(line) = j.damaged_at {
+            super::common::warn(&format!(
+                "{}: line {line} is damaged (a crash of the machine?); it and the lines after it \
+                 are dropped and their samples run again",
+                dir.join(journal::SAMPLES).display()
+            ));
+        }
         note(
             g,
             &format!(
@@ -193,6 +240,18 @@ pub fn plan<S: Serialize>(
                     old.state,
                     dir.join(journal::MANIFEST).display()
                 )));
+            }
+        }
+        // Starting afresh over a finished run: its summary files go with its journal, so the
+        // folder never shows results of another run beside this one's journal.
+        if existing.is_some() {
+            for name in outputs {
+                let p = dir.join(name);
+                if p.is_file() {
+                    std::fs::remove_file(&p).map_err(|e| {
+                        Failure::Runtime(format!("cannot remove {}: {e}", p.display()))
+                    })?;
+                }
             }
         }
         let seed = resolve_seed(g);
@@ -299,6 +358,12 @@ where
             j.dir.display()
         );
         return Err(match failure {
+            Some(sleek::Error::Numerical(e)) => Failure::Runtime(format!(
+                "{e}: a sample is a pure function of the seed and its index, so resuming would \
+                 meet it again; please report it with the command line ({saved} of {total} \
+                 samples are saved in {})",
+                j.dir.display()
+            )),
             Some(e) => Failure::Runtime(format!("{e}; {msg}")),
             None => Failure::Interrupted(format!("stopped by a signal: {msg}")),
         });
@@ -339,4 +404,18 @@ where
 /// The run folder of a journaled run (for the standard output files).
 pub fn folder(plan: &Plan) -> Option<&Path> {
     plan.journal.as_ref().map(|j| j.dir.as_path())
+}
+
+/// Refuse export options with --shard: a shard has only part of the samples; the merged folder
+/// holds the figures and files of the whole run.
+pub fn no_exports_with_shard(r: &RunArgs, exports: &[(&str, bool)]) -> Result<(), Failure> {
+    if r.shard.is_some() {
+        if let Some((name, _)) = exports.iter().find(|(_, given)| *given) {
+            return Err(Failure::Usage(format!(
+                "{name} cannot be used with --shard: a shard holds part of the samples; \
+                 `sleek merge` writes the whole run's files into its --out folder"
+            )));
+        }
+    }
+    Ok(())
 }

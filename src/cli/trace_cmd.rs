@@ -404,7 +404,22 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
         (sample(g, a)?, g.out.clone())
     } else {
         let (job, sampler) = job_of(a)?;
-        let mut plan = runs::plan(g, &a.run, "trace", a.count, &job)?;
+        runs::no_exports_with_shard(
+            &a.run,
+            &[
+                ("--plot", a.plot.is_some()),
+                ("--export-csv", a.export_csv.is_some()),
+                ("--export-json", a.export_json.is_some()),
+            ],
+        )?;
+        let mut plan = runs::plan(
+            g,
+            &a.run,
+            "trace",
+            a.count,
+            &job,
+            &["trace.csv".into(), "trace.json".into(), "trace.svg".into()],
+        )?;
         let seed = plan.seed;
         let data = match runs::execute(g, &mut plan, "curves", |i| {
             CurveData::of(&sampler.sample(seed, i))
