@@ -182,9 +182,11 @@ impl RadialChain {
 /// `t = −log CR(D_t, 0)`, on the grid of [`radial_grid`].
 ///
 /// Without ρ the driving angle is ξ = √κ B (piecewise constant: the value at each step's end).
-/// With ρ the angle θ = ξ − η is stepped by [`crate::cle::AngleProcess::radial_rho`] and the
-/// force point η moves by the exact image of the boundary point under each step; if θ reaches
-/// 2π (the trace disconnects the force point from 0) the curve stops there and says so.
+/// With ρ the angle θ = ξ − η is stepped by [`crate::cle::AngleProcess::radial_rho`] on a
+/// grid of its own, finer near the ends of θ, and the force point moves by
+/// `dη = −cot(θ/2) dt` summed on that grid (mid-point rule); the chain takes ξ = η + θ at the end
+/// of each step. If θ reaches 2π (the trace disconnects the force point from 0) the curve stops
+/// there and says so.
 #[derive(Debug, Clone)]
 pub struct RadialSle {
     kappa: f64,
@@ -211,6 +213,13 @@ pub struct RadialCurve {
     /// The radial chain of the steps taken.
     pub chain: RadialChain,
 }
+
+/// Sub-steps of the angle process near an end are at most d²/(PUSH_RESOLUTION·κ) long (d the
+/// distance to the end), so θ moves by about d/4 per sub-step and the mid-point rule for the
+/// force point's push cot(θ/2) stays accurate.
+const PUSH_RESOLUTION: f64 = 16.0;
+/// Smallest sub-step of the angle process, relative to the chain's step.
+const MIN_SUBSTEP: f64 = 1e-5;
 
 /// The radial-time grid of [`RadialSle`]: `t_k = F⁻¹(k/N)` with
 /// `F(t) = ½(1 − e^{−2t})/(1 − e^{−2T}) + ½ t/T`, so half the resolution is uniform in `e^{−2t}`
@@ -334,24 +343,40 @@ impl RadialSle {
             Some(rho) => {
                 let process = crate::cle::AngleProcess::radial_rho(self.kappa, rho)
                     .expect("validated in new");
-                let (mut theta, mut eta) = (0.0, 0.0);
-                for k in 0..steps {
+                let (mut theta, mut eta) = (0.0f64, 0.0f64);
+                'steps: for k in 0..steps {
                     let h = grid[k + 1] - grid[k];
-                    let st = process.step(theta, h, &mut g);
-                    if st.visit == crate::cle::EndVisit::Full {
-                        // The end of the step in which the visit was sampled (as for CLE loops).
-                        stopped_at = Some(grid[k + 1]);
-                        break;
+                    // The force point moves by dη = −cot(θ/2) dt, θ = ξ − η. Near an end of θ
+                    // this push is singular (≈ −2/θ), and letting the slit map of the whole step
+                    // carry the force point biases the driving function badly (measured at
+                    // ρ = 0, κ = 6, 100 steps: E[ξ_1] = 0.63 instead of 0, Var ξ_1 = 0.70κ). So
+                    // θ is advanced on a finer grid of its own, each sub-step τ at most
+                    // d²/(PUSH_RESOLUTION·κ) (d the distance of θ to its nearer end, never
+                    // below h·MIN_SUBSTEP), and the push is summed with the mid-point rule.
+                    // Only ξ at the end of the step enters the Loewner chain.
+                    let mut left = h;
+                    while left > 0.0 {
+                        let d = theta.abs().min(2.0 * PI - theta.abs());
+                        let tau = (d * d / (PUSH_RESOLUTION * self.kappa))
+                            .max(h * MIN_SUBSTEP)
+                            .min(left);
+                        let tau = if left - tau < 1e-3 * tau { left } else { tau };
+                        let st = process.step(theta, tau, &mut g);
+                        if st.visit == crate::cle::EndVisit::Full {
+                            // The end of the step in which the visit was sampled (as for CLE
+                            // loops).
+                            stopped_at = Some(grid[k + 1]);
+                            break 'steps;
+                        }
+                        let mid = 0.5 * (theta.abs() + st.theta.abs());
+                        eta -= tau / (0.5 * mid).tan();
+                        theta = st.theta;
+                        left -= tau;
                     }
-                    let xi = eta + st.theta;
-                    let step = RadialStep::new(xi, h);
-                    let moved = step.forward_boundary_angle(eta, -1.0);
-                    // The force point stays clockwise of the tip by less than a turn.
-                    eta = xi - (xi - moved).rem_euclid(2.0 * PI);
-                    chain.push(step);
+                    let xi = eta + theta;
+                    chain.push(RadialStep::new(xi, h));
                     driving.push(xi);
                     force.push(eta);
-                    theta = st.theta;
                     times.push(grid[k + 1]);
                 }
             }

@@ -125,9 +125,9 @@ fn radial_sle_traces_respect_koebe_quarter_bound() {
 fn radial_sle_kappa_6_minus_kappa_closes_loops_with_the_ssw_law() {
     // Radial SLE_κ(κ − 6) from 1 towards 0 reaches θ = 2π when it closes the outermost CLE_κ loop
     // around 0 (Sheffield, Duke Math. J. 2009), at radial time T with the law of Schramm,
-    // Sheffield & Wilson (Commun. Math. Phys. 2009). This checks the force-point bookkeeping of
-    // `RadialSle` with ρ, not only the angle process: P(T ≤ t) at t = 5 and 12 against the exact
-    // CDF, 4σ of the binomial standard error under the exact law.
+    // Sheffield & Wilson (Commun. Math. Phys. 2009). T depends on the angle process θ only (the
+    // force point's motion is checked by the martingale test below): P(T ≤ t) at t = 5 and 12
+    // against the exact CDF, 4σ of the binomial standard error under the exact law.
     use sleek::laws::CleLaw;
     use sleek::radial::RadialSle;
     for (kappa, seed) in [(6.0, 31u64), (16.0 / 3.0, 32)] {
@@ -196,5 +196,46 @@ fn tilted_radial_step_fixes_0_and_continues_from_its_base() {
         // The tip maps to the tip angle.
         let (t, _) = st.forward_with_derivative(st.tip() * (1.0 - 1e-12));
         assert!((t.arg() - C::from_polar(1.0, st.tip_angle_after()).arg()).abs() < 1e-4);
+    }
+}
+
+#[test]
+fn radial_sle_kappa_rho_driving_has_the_martingale_of_the_sde() {
+    // Radial SLE_κ(ρ): dξ = √κ dB + (ρ/2) cot((ξ − η)/2) dt and dη = −cot((ξ − η)/2) dt
+    // (Loewner flow of the force point; common practice, e.g. Schramm & Wilson, New York J. Math.
+    // 2005), so M = ξ + (ρ/2) η is √κ B: E[M_t] = 0 and E[M_t² − κ t] = 0. This sees the force
+    // point's push near the tip, which the loop-closing test above cannot (T depends on θ only).
+    // Before the push was summed on a finer grid of θ, ρ = 0 and κ = 6 on 100 steps gave
+    // E[ξ_1] = 0.63 ± 0.03. Horizons are chosen so that no curve stops (θ never reaches 2π),
+    // which keeps t fixed. 4σ of the sample standard errors.
+    use sleek::radial::RadialSle;
+    for (kappa, rho, time, seed) in [
+        (2.0, 0.0, 1.0, 41u64),
+        (3.0, 0.5, 1.0, 42),
+        (6.0, 0.0, 0.3, 43),
+        (6.0, 2.0, 1.0, 44),
+    ] {
+        let sle = RadialSle::new(kappa, Some(rho), time, 200).unwrap();
+        let n = 3000u64;
+        let (mut m1, mut m2) = (Vec::new(), Vec::new());
+        for i in 0..n {
+            let c = sle.sample_driving(seed, i);
+            assert!(
+                c.stopped_at.is_none(),
+                "κ = {kappa}, ρ = {rho}: curve {i} stopped"
+            );
+            let m = c.driving.last().unwrap() + 0.5 * rho * c.force.last().unwrap();
+            m1.push(m);
+            m2.push(m * m - kappa * c.times.last().unwrap());
+        }
+        for (name, v) in [("E[M]", &m1), ("E[M² − κt]", &m2)] {
+            let k = v.len() as f64;
+            let mean = v.iter().sum::<f64>() / k;
+            let se = (v.iter().map(|x| (x - mean).powi(2)).sum::<f64>() / (k - 1.0) / k).sqrt();
+            assert!(
+                mean.abs() < 4.0 * se,
+                "κ = {kappa}, ρ = {rho}: {name} = {mean} (σ = {se})"
+            );
+        }
     }
 }
