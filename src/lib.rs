@@ -61,6 +61,7 @@ pub mod radii;
 pub mod report;
 pub mod rng;
 pub mod sle;
+pub mod sle_rho;
 pub mod special;
 pub mod stats;
 pub mod unzip;
