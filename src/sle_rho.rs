@@ -24,8 +24,12 @@
 //! −1 to 1 and κ − 6 at κ = 16/3) and, for ρ = κ − 6 with x₀ = 1, that Schramm's left-passage
 //! probability of the remaining chord is a martingale up to t = 0.05. **Known failure:** at
 //! t = 0.25, once many chords have ended, its mean falls below the start value by 6–9σ (κ = 3
-//! and 5, a point near (0, 1)), unchanged on ten times shorter base steps, so what happens
-//! around the swallowing of the force point ([`RhoDriving::swallowed_at`]) is not right yet.
+//! and 5, a point near (0, 1)), unchanged on ten times shorter base steps. A probe of κ = 3 at
+//! t = 0.25 found the unfinished chords at a mean of 0.93 and the finished ones (668 of 1500) at
+//! 0.55, with values 0 or 1 as they should be, but 0 far more often than chords of that size
+//! allow for a point at height 0.15 under them. Either the sampler near the swallowing of the
+//! force point ([`RhoDriving::swallowed_at`]) or the test's reading of the end (the images of
+//! points deep in the last fjord) is wrong; not resolved.
 //! It is meant for the whole-configuration CLE sampler (DEVELOPERS.md, "Where things stand").
 
 use crate::driving::DrivingFunction;
