@@ -555,9 +555,7 @@ impl SampleLog {
         g.0.write_all(line.as_bytes()).map_err(io)?;
         if g.1.elapsed() >= self.interval {
             // Flushed and synced, so a crash of the machine loses at most one interval.
-            g.0.flush().map_err(io)?;
-            g.0.get_ref().sync_data().map_err(io)?;
-            g.1 = Instant::now();
+            Self::sync(&mut g, &self.path)?;
         }
         Ok(())
     }
@@ -567,12 +565,15 @@ impl SampleLog {
     /// # Errors
     /// An I/O failure.
     pub fn flush(&self) -> Result<()> {
-        let io =
-            |e: std::io::Error| Error::Output(format!("cannot write {}: {e}", self.path.display()));
         let mut g = self
             .inner
             .lock()
             .map_err(|_| Error::Output("journal lock poisoned".into()))?;
+        Self::sync(&mut g, &self.path)
+    }
+
+    fn sync(g: &mut (BufWriter<File>, Instant), path: &Path) -> Result<()> {
+        let io = |e: std::io::Error| Error::Output(format!("cannot write {}: {e}", path.display()));
         g.0.flush().map_err(io)?;
         g.0.get_ref().sync_data().map_err(io)?;
         g.1 = Instant::now();

@@ -71,22 +71,7 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
         bytes,
         &format!("--count {} radial curves of {steps} steps", a.count),
     )?;
-    runs::no_exports_with_shard(
-        &a.run,
-        &[
-            ("--plot", a.plot.is_some()),
-            ("--export-csv", a.export_csv.is_some()),
-            ("--export-json", a.export_json.is_some()),
-        ],
-    )?;
-    let mut plan = runs::plan(
-        g,
-        &a.run,
-        "radial-trace",
-        a.count,
-        &job,
-        &["trace.csv".into(), "trace.json".into(), "trace.svg".into()],
-    )?;
+    let mut plan = super::trace_cmd::plan_run(g, a, "radial-trace", &job)?;
     let seed = plan.seed;
     let data = match runs::execute(g, &mut plan, "curves", |i| {
         RadialData::of(&sle.sample_with(seed, i, method))

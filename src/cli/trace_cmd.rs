@@ -404,22 +404,7 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
         (sample(g, a)?, g.out.clone())
     } else {
         let (job, sampler) = job_of(a)?;
-        runs::no_exports_with_shard(
-            &a.run,
-            &[
-                ("--plot", a.plot.is_some()),
-                ("--export-csv", a.export_csv.is_some()),
-                ("--export-json", a.export_json.is_some()),
-            ],
-        )?;
-        let mut plan = runs::plan(
-            g,
-            &a.run,
-            "trace",
-            a.count,
-            &job,
-            &["trace.csv".into(), "trace.json".into(), "trace.svg".into()],
-        )?;
+        let mut plan = plan_run(g, a, "trace", &job)?;
         let seed = plan.seed;
         let data = match runs::execute(g, &mut plan, "curves", |i| {
             CurveData::of(&sampler.sample(seed, i))
@@ -444,6 +429,32 @@ pub fn run(g: &Global, a: &TraceArgs) -> Result<(), Failure> {
         }
     })?;
     rest
+}
+
+/// The run plan of a sampled `trace` invocation (chordal or radial): exports are refused with
+/// --shard, and the folder's files are trace.{csv,json,svg}.
+pub fn plan_run<S: Serialize>(
+    g: &Global,
+    a: &TraceArgs,
+    command: &str,
+    job: &S,
+) -> Result<runs::Plan, Failure> {
+    runs::no_exports_with_shard(
+        &a.run,
+        &[
+            ("--plot", a.plot.is_some()),
+            ("--export-csv", a.export_csv.is_some()),
+            ("--export-json", a.export_json.is_some()),
+        ],
+    )?;
+    runs::plan(
+        g,
+        &a.run,
+        command,
+        a.count,
+        job,
+        &["trace.csv".into(), "trace.json".into(), "trace.svg".into()],
+    )
 }
 
 fn run_of(job: &TraceJob, seed: u64, data: Vec<CurveData>) -> Result<TraceRun, Failure> {
