@@ -29,7 +29,10 @@
 //! 0.55, with values 0 or 1 as they should be, but 0 far more often than chords of that size
 //! allow for a point at height 0.15 under them. Either the sampler near the swallowing of the
 //! force point ([`RhoDriving::swallowed_at`]) or the test's reading of the end (the images of
-//! points deep in the last fjord) is wrong; not resolved.
+//! points deep in the last fjord) is wrong; not resolved. A lead: in 24 of 131 finished chords
+//! (κ = 3) the traced chord closed by the segment from its tip to 1 winds around z = 0.3 + 0.15i
+//! while the chain's image of z lies outside [W, O] (e.g. g = 1.540 + 10⁻¹⁴i against
+//! [1.5435, 1.5436]): the frame and the trace disagree about which side of the chord z is on.
 //! It is meant for the whole-configuration CLE sampler (DEVELOPERS.md, "Where things stand").
 
 use crate::driving::DrivingFunction;
