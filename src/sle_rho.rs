@@ -33,6 +33,8 @@
 //! (κ = 3) the traced chord closed by the segment from its tip to 1 winds around z = 0.3 + 0.15i
 //! while the chain's image of z lies outside [W, O] (e.g. g = 1.540 + 10⁻¹⁴i against
 //! [1.5435, 1.5436]): the frame and the trace disagree about which side of the chord z is on.
+//! Not the cause: steps jumping over the point's image (sub-steps kept small against each
+//! watched point's distance to W left E[P_0.25] at 0.753 against 0.864).
 //! It is meant for the whole-configuration CLE sampler (DEVELOPERS.md, "Where things stand").
 
 use crate::driving::DrivingFunction;
