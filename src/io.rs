@@ -26,7 +26,9 @@ pub const MAX_DRIVING_LINE: usize = 4096;
 /// as a header. Times must start at 0 and increase strictly.
 ///
 /// # Errors
-/// [`Error::InvalidData`] naming the line that cannot be read, or the rule a sample breaks.
+/// [`Error::InvalidData`] naming the line that cannot be read (including a line longer than
+/// [`MAX_DRIVING_LINE`] bytes, or more than [`MAX_DRIVING_SAMPLES`] samples), or the rule a
+/// sample breaks.
 pub fn read_driving(mut reader: impl BufRead) -> Result<DrivingFunction> {
     let mut t = Vec::new();
     let mut w = Vec::new();

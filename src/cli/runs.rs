@@ -114,7 +114,8 @@ impl Drop for Lock {
 struct Journaled {
     dir: PathBuf,
     manifest: Manifest,
-    done: usize,
+    /// Indices already in the journal when the run started (resumed runs).
+    done: std::collections::BTreeSet<u64>,
     log: SampleLog,
     _lock: Lock,
 }
@@ -270,7 +271,7 @@ pub fn plan<S: Serialize>(
         seed: manifest.seed,
         samples,
         journal: Some(Journaled {
-            done: journal.samples.len(),
+            done: journal.samples.keys().copied().collect(),
             dir,
             manifest,
             log,
@@ -321,11 +322,9 @@ where
     install_handler();
     let range = j.manifest.range();
     let total = range.end - range.start;
-    let done = journal::read_journal(&j.dir, range.clone())?;
-    let todo: Vec<u64> = range.filter(|i| !done.samples.contains_key(i)).collect();
-    drop(done);
+    let todo: Vec<u64> = range.filter(|i| !j.done.contains(i)).collect();
     let pb = progress(g, total, what);
-    pb.set_position(j.done as u64);
+    pb.set_position(j.done.len() as u64);
     let failure: Mutex<Option<sleek::Error>> = Mutex::new(None);
     let failed = AtomicBool::new(false);
     todo.par_iter().for_each(|&i| {
