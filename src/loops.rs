@@ -1,100 +1,122 @@
-//! CLE_κ configurations in the unit disk as geometry: every loop above a size cutoff, as a closed
-//! polyline with its nesting depth and parent loop (DESIGN §6.3).
+//! Whole CLE_κ configurations in the unit disk as geometry: every loop of diameter at least ε,
+//! as a closed polyline with its nesting depth and parent loop, for 8/3 < κ < 8.
 //!
-//! # Method
-//! The exploration of [`crate::cle`] (Sheffield's radial SLE_κ(κ−6), Duke Math. J. 2009, with
-//! target invariance) is run towards a grid of *targets* (plus the user's marked points), and
-//! every branch of the exploration tree now keeps its chain of maps in a
-//! [`DiskChain`](crate::disk_fast::DiskChain). A branch created when targets separate keeps a
-//! reference to its parent's chain and the length of the prefix it inherits, so a point of any
-//! branch's current frame is taken back to the disk through the branch's own maps and then
-//! through every ancestor's prefix, each by its block series.
+//! # Method: recursive regions
+//! A *region* is a simply connected part of the disk still to be explored (the disk itself, a
+//! loop's interior, a pocket cut off by an exploration), given as a polygon in the plane. Each
+//! region is explored by one branch of Sheffield's exploration (radial SLE_κ(κ−6) towards the
+//! region's deepest point, Duke Math. J. 2009), in the region's own frame: the geodesic zipper
+//! ([`crate::geozip`]) maps the polygon onto D with that point at 0, and the branch's steps are
+//! radial slits ([`RadialStep`]) collected in a [`DiskChain`]. Each tip is taken back through the
+//! chain and the zipper, so the trace is drawn in the plane as it is made.
 //!
-//! Each excursion of the driver's angle θ away from its ends traces one loop (DESIGN §6.1). The
-//! tip is mapped back after every step, so the loop's polyline grows as it is traced; the step
-//! is shortened when consecutive tip points are further apart than the spacing target, and
-//! lengthened when they are much closer. An excursion that ends at 0 closes a loop that does
-//! not surround the driver; one that reaches 2π closes the loop around it, whose interior the
-//! branch then explores afresh (one level deeper).
+//! The angle θ = ξ − η between the driving point and the force point is stepped by the exact
+//! scheme of [`AngleProcess`]. The force point moves with the chain's own flow (the image of the
+//! boundary point under each slit map) and the next slit grows from `η + θ`. Near an end of θ
+//! the steps are cut to at most `d²/(16κ)` (d the distance to the end) so that the force
+//! point's push stays small against the slit; below the spatial resolution (d smaller than the
+//! length of a slit) the steps are not cut further.
 //!
-//! A loop being traced when targets separate is continued by one branch only (the one whose own
-//! θ is further from its ends: the others were cut off from the rest of the loop), so no loop is
-//! drawn twice. Nesting: a branch explores a region surrounded by `depth` loops, the innermost
-//! being its `region` loop; a loop started there has depth `depth + 1` and that parent.
+//! Excursions of θ away from its ends trace loops (DESIGN §6.1):
+//! * an excursion that reaches ±2π closes the loop around the region's point; the branch stops
+//!   there;
+//! * for κ ≤ 4 an excursion that returns to 0 traces a whole simple loop that does not surround
+//!   the point;
+//! * for 4 < κ < 8 it traces only the outer *arch* of such a loop, from its start p to the point
+//!   x where it lands; the rest of the loop lies in the pocket under the arch (on the force
+//!   point's side, the arch's left), and given the arch it is the continuation of the same
+//!   exploration in that pocket: radial SLE_κ(κ−6) towards the pocket's point with its force
+//!   point at p and its tip at x, θ then being the harmonic measure of the arch seen from that
+//!   point times 2π (target invariance; Schramm & Wilson, New York J. Math. 2005). The pocket is
+//!   explored with that state and the loop grows until it closes.
 //!
-//! A target is retired once its conformal radius falls below `stop_cr` (its remaining region has
-//! in-radius below that, by Koebe's theorem); a branch whose targets are all retired finishes the
-//! loop it is tracing and stops. Loops of diameter below `min_size` are counted and dropped.
+//! What a branch cuts off is found in the plane: the region is rasterised at a cell size of half
+//! the spacing, the trace is drawn into the raster with a thickness of one cell (so parts of the
+//! trace closer than about the spacing count as touching), and the free cells fall into
+//! 4-connected components. Each component is a new region, bounded by the polygon along its cell
+//! edges. A component inside one of the loops just traced (by winding number) lies one level
+//! deeper, with that loop as its parent; the others keep the region's depth. Regions smaller than
+//! ε across are dropped (no loop of diameter ε fits in them); pockets under arches are kept down
+//! to four cells, so that loops are completed at the spacing.
+//!
+//! Regions are independent given their polygons, so they are explored in parallel, in waves;
+//! each region's random stream comes from its address in the tree of regions, so a configuration
+//! is a pure function of (seed, index) whatever the number of threads.
+//!
+//! A branch is handed on when its point's conformal radius falls below two cells (or after
+//! 2000 steps: evaluating a chain costs up to its length, so short chains are fast ones): the
+//! component of the raster holding the deepest point left becomes a new region, explored with
+//! the loop in progress (as for an arch) or, between loops, afresh — the loops' law in the
+//! remaining domain does not depend on where a fresh exploration starts, so it starts at the
+//! boundary point nearest the region's point, where the frame resolves the plane best.
 //!
 //! # Status: experimental, not used by the command line
-//! Measured on this machine (seeds 1, one configuration each; `min_size` ε, grid ε/2):
-//! * A single target (the exploration towards one point, no branching) gives closed, loop-like
-//!   polylines for κ = 3; at κ = 6 the loop in progress when the target's domain becomes small
-//!   is traced in a frame so compressed at the tip that steps cannot resolve it, and it closes
-//!   with a long straight segment.
-//! * With a grid of targets the pictures show straight jumps across the disk and, with a weak
-//!   target separation (2√(κh)), the same region explored by several branches (crossing,
-//!   overlapping loops): targets swept by a slit or pinched early start branches that re-explore
-//!   their parent's region. With separation 8 (the default here) fewer branches start, but
-//!   straight jumps and crossings remain, and κ = 6 at ε = 0.5 took 44 s (37 000 steps), far
-//!   from the goal of ε = 0.02 in a minute.
-//! * Slits: with vertical slits (piecewise-constant driving) each slit starts where the driving
-//!   point moved to, down the side of the previous slit, and the loops were hairy at the scale
-//!   of the spacing target. Steps are now [`TiltedRadialStep`]s that start at the tip and end
-//!   where θ asks (`tilted_step`); at a visit of 0 the next slit starts at the force point.
-//!   When no tilted slit reaches θ (θ asks for the tip nearer the force point than one slit
-//!   allows), a vertical slit between the tip and the force point is solved for instead
-//!   (`vertical_slit_for_angle`). The step control checks slits at the tip and 3σ of θ's
-//!   increment either side. For κ = 3, one target, ε = 0.1 (seed 1): loop bodies look like
-//!   CLE_3 loops at the spacing target, but 40% of the steps fell back, and some "loops" are
-//!   slivers of a few long straight segments or close with one long segment; 49 s, 88 657 steps.
+//! Measured on this machine (one configuration each, seed 1, index 0, ε = 0.1, spacing ε/6, 2
+//! cores):
+//! * κ = 3: 386 regions, 61 152 steps, 20 s, 17 MB peak memory. 419 loops of diameter ≥ ε
+//!   were traced; the ones drawn look like CLE₃ loops at the spacing, but 406 of them hold a
+//!   stretch longer than four spacings (a jump of the trace) and are dropped as `unresolved`;
+//!   8% of all steps moved the tip more than three spacings (`long_segments`).
+//! * κ = 6: 203 regions, 60 885 steps, 28 s, 15 MB; 115 loops ≥ ε, 103 unresolved; 2% long
+//!   steps. The outermost loops are among the unresolved ones, so the picture is not a
+//!   configuration.
+//! * Where the jumps happen: mostly between loops (θ within 10⁻³ of 0) in regions handed on,
+//!   with steps already at the floor `h_min` = 10⁻¹⁴: the frame is compressed at the tip by a
+//!   factor of 10⁵ or more, far from every point the region is explored towards. A clock that
+//!   follows the tip (a driver chosen near it), or handing on when the tip goes where the
+//!   frame cannot resolve it, is the next thing to try (DEVELOPERS.md, "Where things stand").
+//! * No geometric or statistical check of the configurations has been run yet beyond
+//!   determinism; the gating of θ's ends by the plane (below) is what made loops close at their
+//!   start (closing gaps of up to 0.18 before it).
 //!
-//! What is needed (DEVELOPERS.md, "Where things stand"): a consistent treatment of the steps
-//! where θ comes closer to the force point than a slit allows, a clock that resolves the tip
-//! when it is far from every target (a driver chosen near the tip), and a cheaper way to detect
-//! the regions that are cut off than carrying a grid of targets through every step.
+//! # Resolution, and what is approximate
+//! * Polylines have a target spacing `spacing` (default ε/6); a step whose tip moved more than
+//!   three spacings is counted (`long_segments`).
+//! * Touching is decided at the raster's resolution: two loops, or two parts of one loop,
+//!   closer than about one spacing are treated as touching.
+//! * A branch with nothing left wider than two cells finishes its excursion towards the same
+//!   point and stops; one that runs out of target switches closes the loop in progress by a
+//!   straight segment (`closed_early`).
+//! * Regions narrower than ε/5 (twice the inradius of their raster component) are dropped: a
+//!   CLE loop is rarely much longer than the width of the region that holds it.
+//! * A loop with a stretch longer than four spacings is dropped and counted (`unresolved`).
+//! * For κ ≤ 4 the net push of the hidden (unresolved) excursions on the force point is
+//!   neglected, as in [`crate::cle`] (DESIGN §6.1).
 
-use crate::cle::{
-    arc_measure, group_connected, AngleProcess, Branch, EndVisit, LoopAround, PointRecord, Tracked,
-};
+use crate::cle::{AngleProcess, EndVisit};
 use crate::disk_fast::{DiskChain, DiskMap};
 use crate::error::{Error, Result};
-use crate::radial::TiltedRadialStep;
+use crate::geozip::GeodesicZipper;
+use crate::polygon::winding_number;
+use crate::radial::RadialStep;
 use crate::rng::{self, Tag};
 use num_complex::Complex64;
+use rayon::prelude::*;
 use serde::Serialize;
+use std::collections::VecDeque;
 use std::f64::consts::PI;
 
 const TWO_PI: f64 = 2.0 * PI;
-/// Driver hysteresis, as in [`crate::cle`]: switch when another Poisson kernel is 1.5× larger.
-const SWITCH_RATIO: f64 = 1.5;
+/// Target switches allowed in one region before its branch is stopped.
+const MAX_SWITCHES: u32 = 400;
 
 /// Numerical settings of a configuration.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct LoopSettings {
     /// Loops of diameter at least this are kept (ε).
     pub min_size: f64,
-    /// Spacing of the target grid (default ε/2, DESIGN §6.3).
-    pub grid: f64,
-    /// Target spacing of consecutive polyline points, absolute (default ε/5).
+    /// Target spacing of consecutive polyline points (default ε/6).
     pub spacing: f64,
-    /// A target is retired when its conformal radius falls below this (default ε/4).
-    pub stop_cr: f64,
-    /// Largest step, in the driver's radial time (default 0.01).
+    /// Largest step, in radial time of the region's frame (default 0.01).
     pub h_max: f64,
-    /// Smallest step (default 1e-10).
+    /// Smallest step (default 1e-14).
     pub h_min: f64,
-    /// Marked points are kept at least `separation·√(κh)` from the tip (default 8, as in
-    /// [`crate::cle::ExploreSettings`]).
-    pub separation: f64,
-    /// Grid targets are kept at least `target_separation·√(κh)` from the tip (default 8).
-    pub target_separation: f64,
-    /// Pseudo-hyperbolic closeness below which two targets are disconnected (default 1e-6).
-    pub pinch: f64,
-    /// Step budget for the configuration (all branches).
-    pub max_steps: u64,
-    /// Largest radial time spent finishing a loop after a branch's targets are retired.
-    pub finish_time: f64,
+    /// Steps near an end of θ are at most `d²/(end_resolution·κ)` (default 16).
+    pub end_resolution: f64,
+    /// Step budget of one region (default 2·10⁶); a region that uses it up is closed early.
+    pub max_steps_per_region: u64,
+    /// Region budget of one configuration (default 10⁶).
+    pub max_regions: usize,
 }
 
 impl LoopSettings {
@@ -102,267 +124,259 @@ impl LoopSettings {
     pub fn defaults(min_size: f64) -> Self {
         LoopSettings {
             min_size,
-            grid: 0.5 * min_size,
-            spacing: 0.2 * min_size,
-            stop_cr: 0.25 * min_size,
+            spacing: min_size / 6.0,
             h_max: 0.01,
-            h_min: 1e-10,
-            separation: 8.0,
-            target_separation: 8.0,
-            pinch: 1e-6,
-            max_steps: 400_000_000,
-            finish_time: 50.0,
+            h_min: 1e-14,
+            end_resolution: 16.0,
+            max_steps_per_region: 2_000,
+            max_regions: 1_000_000,
         }
+    }
+
+    /// Raster cell size: half the spacing.
+    pub fn cell(&self) -> f64 {
+        0.5 * self.spacing
+    }
+
+    /// Check the settings.
+    ///
+    /// Errors: [`Error::InvalidParameter`] naming the first value out of range.
+    pub fn validate(&self) -> Result<()> {
+        if !(self.min_size.is_finite() && self.min_size >= 0.005 && self.min_size <= 1.0) {
+            return Err(Error::param(
+                "min-size",
+                self.min_size,
+                "0.005 <= min-size <= 1 (the smallest loop diameter kept; memory grows like \
+                 1/min-size^2)",
+            ));
+        }
+        if !(self.spacing.is_finite()
+            && self.spacing >= self.min_size / 50.0
+            && self.spacing <= self.min_size / 2.0)
+        {
+            return Err(Error::param(
+                "spacing",
+                self.spacing,
+                "min-size/50 <= spacing <= min-size/2",
+            ));
+        }
+        Ok(())
     }
 }
 
 /// One loop of a configuration.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct CleLoop {
-    /// Identifier within the configuration (shared with [`LoopAround::loop_id`]).
-    pub id: u64,
-    /// The loop immediately surrounding this one, if any (`None`: an outermost loop).
-    pub parent: Option<u64>,
-    /// Nesting depth: 1 for outermost loops, 2 for loops inside one loop, …
+    /// Identifier: the loop's position in [`LoopConfiguration::loops`].
+    pub id: usize,
+    /// The innermost loop surrounding this one, if any.
+    pub parent: Option<usize>,
+    /// Nesting depth: 1 for outermost loops, `depth(parent) + 1` otherwise.
     pub depth: u32,
-    /// The closed polyline (the first point is not repeated at the end), in the disk.
-    pub points: Vec<[f64; 2]>,
-    /// Diameter of the polyline (largest extent over 64 directions; within 0.12%).
-    pub diameter: f64,
-    /// Largest distance between consecutive points, the closing segment included.
-    pub max_spacing: f64,
-    /// `log CR` of the loop's interior seen from the target that discovered it from inside,
-    /// when one did (the loop closed around a target).
+    /// The closed polyline, counterclockwise or clockwise as traced (first point not repeated).
+    #[serde(serialize_with = "ser_points")]
+    pub points: Vec<Complex64>,
+    /// The point of the region whose branch closed the loop around itself, when that is how the
+    /// loop ended (its conformal radius is then exact from the chain).
+    #[serde(serialize_with = "ser_opt_point")]
+    pub seen_from: Option<Complex64>,
+    /// `log CR(interior, seen_from)`, from the branch's radial time.
     pub log_cr: Option<f64>,
+    /// Diameter of the polyline.
+    pub diameter: f64,
+    /// Whether a stretch longer than the spacing was closed by a straight segment (the branch
+    /// stopped early, or the loop's last pocket was below the resolution).
+    pub closed_by_segment: bool,
 }
 
-/// Counters that say how a configuration was resolved.
-#[derive(Debug, Clone, Copy, Default, PartialEq, Serialize)]
+fn ser_points<S: serde::Serializer>(p: &[Complex64], s: S) -> std::result::Result<S::Ok, S::Error> {
+    use serde::ser::SerializeSeq;
+    let mut q = s.serialize_seq(Some(p.len()))?;
+    for z in p {
+        q.serialize_element(&[z.re, z.im])?;
+    }
+    q.end()
+}
+
+fn ser_opt_point<S: serde::Serializer>(
+    p: &Option<Complex64>,
+    s: S,
+) -> std::result::Result<S::Ok, S::Error> {
+    match p {
+        Some(z) => s.serialize_some(&[z.re, z.im]),
+        None => s.serialize_none(),
+    }
+}
+
+/// Counters of a configuration (what was approximated, and the cost).
+#[derive(Debug, Clone, Default, PartialEq, Serialize)]
 pub struct LoopDiagnostics {
-    /// Steps (all branches).
+    /// Regions explored.
+    pub regions: u64,
+    /// Steps of all branches.
     pub steps: u64,
-    /// Steps forced below `h_min` by a target close to the tip and taken at `h_min`.
-    pub floor_steps: u64,
-    /// Branches of the exploration tree.
-    pub branches: u64,
-    /// Targets (grid and marked).
-    pub targets: u64,
-    /// Loops completed (before the size cut).
+    /// Steps whose tip moved more than three spacings.
+    pub long_segments: u64,
+    /// Branches stopped before their loop closed (point's conformal radius below half a cell,
+    /// or step budget).
+    pub closed_early: u64,
+    /// Regions dropped because the zipper could not map them.
+    pub zipper_failures: u64,
+    /// Branches stopped because a point of the trace was mapped outside its region (the loop
+    /// in progress is dropped).
+    pub lost_points: u64,
+    /// Regions dropped for being smaller than ε (or an arch pocket below four cells).
+    pub small_regions: u64,
+    /// Loops traced, of any size.
     pub loops_traced: u64,
-    /// Loops below `min_size`, dropped.
-    pub loops_small: u64,
-    /// Loops left unfinished (the step budget or `finish_time` ran out while tracing them).
-    pub loops_unfinished: u64,
-    /// Steps whose tilted slit could not put the tip at the angle θ asked for (too close to the
-    /// force point for one step); they use the straight slit from the tip.
-    pub tilt_fallbacks: u64,
-    /// Whether the step budget stopped the exploration.
+    /// Loops of diameter ≥ ε dropped because a stretch of their polyline (a jump of the trace
+    /// or the segment that closes it) is longer than four spacings.
+    pub unresolved: u64,
+    /// Largest number of polygon vertices of a region.
+    pub max_polygon: u64,
+    /// Whether the region budget ran out (the configuration is incomplete).
     pub truncated: bool,
-    /// Maps stored in all chains, and their memory in bytes.
-    pub maps: u64,
-    /// Heap memory of the chains and their block trees, bytes.
-    pub chain_bytes: u64,
 }
 
-/// One sampled configuration.
+/// A CLE_κ configuration in the unit disk.
 #[derive(Debug, Clone, PartialEq, Serialize)]
 pub struct LoopConfiguration {
     /// Sample index.
     pub index: u64,
-    /// Loops of diameter ≥ `min_size`, in the order they were completed.
+    /// Loops of diameter at least ε, parents before children.
     pub loops: Vec<CleLoop>,
-    /// The marked points and the loops found around them (outermost first), down to `stop_cr`.
-    pub marked: Vec<PointRecord>,
-    /// Resolution counters.
+    /// Counters.
     pub diagnostics: LoopDiagnostics,
 }
 
-/// Sampler of CLE_κ configurations in the unit disk, all loops of diameter ≥ ε.
+impl LoopConfiguration {
+    /// The loops surrounding `z` (winding number ≠ 0), outermost first.
+    pub fn surrounding(&self, z: Complex64) -> Vec<&CleLoop> {
+        let mut v: Vec<&CleLoop> = self
+            .loops
+            .iter()
+            .filter(|l| winding_number(&l.points, z) != 0)
+            .collect();
+        v.sort_by_key(|l| l.depth);
+        v
+    }
+}
+
+/// Sampler of CLE_κ configurations (module docs).
 #[derive(Debug, Clone)]
 pub struct LoopSampler {
     process: AngleProcess,
     settings: LoopSettings,
-    marked: Vec<Complex64>,
-    targets: Vec<Complex64>,
 }
 
-/// A branch with its place in the tree and what it is tracing.
-struct LBranch {
-    br: Branch,
-    chain: usize,
-    /// Loop being traced (an excursion of θ in progress).
-    exc: Option<u64>,
-    /// Whether this branch continues the geometry of `exc`.
-    owns: bool,
+/// The frame of a region: the disk itself, or a polygon mapped by the zipper.
+enum Frame {
+    Disk,
+    Zip(GeodesicZipper),
+}
+
+impl Frame {
+    fn to_plane(&self, w: Complex64) -> Complex64 {
+        match self {
+            Frame::Disk => w,
+            Frame::Zip(z) => z.from_disk(w),
+        }
+    }
+    fn to_disk(&self, p: Complex64) -> Complex64 {
+        match self {
+            Frame::Disk => p,
+            Frame::Zip(z) => z.to_disk(p),
+        }
+    }
+}
+
+/// A loop being continued in a pocket (κ > 4): its start p and where it landed, x.
+#[derive(Debug, Clone, Copy)]
+struct Continuation {
+    loop_idx: usize,
+    p: Complex64,
+    x: Complex64,
+    /// Sign of θ (the side of the force point; always +1 for κ > 4).
+    sign: f64,
+}
+
+#[derive(Debug, Clone)]
+struct Region {
+    id: u64,
+    polygon: Option<Vec<Complex64>>,
+    centre: Complex64,
     depth: u32,
-    region: Option<u64>,
-    h_spatial: f64,
-    tip: Complex64,
-    /// The tip as a point of the frame's circle (where the next slit starts).
-    tip_w: Complex64,
-    finishing: f64,
+    parent: Option<usize>,
+    cont: Option<Continuation>,
+    candidates: Vec<usize>,
 }
 
-/// Everything one configuration accumulates.
-struct State {
-    chains: Vec<(DiskChain, Option<(usize, usize)>)>,
-    /// Per loop id: depth, parent, and the polyline while it is traced (taken when finished).
-    meta: Vec<(u32, Option<u64>)>,
-    lines: Vec<Option<Vec<Complex64>>>,
-    around_cr: Vec<Option<f64>>,
-    done: Vec<CleLoop>,
-    records: Vec<PointRecord>,
-    retired: Vec<bool>,
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum PieceEnd {
+    Zero,
+    Full,
+    Cut,
+    /// Still open: continued in a child region.
+    Handed,
+}
+
+#[derive(Debug, Clone)]
+struct Piece {
+    start: Complex64,
+    points: Vec<Complex64>,
+    end: PieceEnd,
+    continues: bool,
+}
+
+#[derive(Debug, Clone)]
+enum ChildKind {
+    Fresh,
+    /// The rest of the domain where the branch was handed on between loops: a fresh
+    /// exploration (from the boundary point nearest the region's point).
+    Handed,
+    /// The loop of this piece continues in the child, with the sign of θ.
+    Arch(usize, f64),
+}
+
+#[derive(Debug, Clone)]
+struct Child {
+    polygon: Vec<Complex64>,
+    centre: Complex64,
+    kind: ChildKind,
+}
+
+#[derive(Debug, Default)]
+struct Outcome {
+    pieces: Vec<Piece>,
+    log_cr_final: Option<f64>,
+    seen_from: Option<Complex64>,
+    children: Vec<Child>,
+    /// Arch pieces whose pocket was dropped (their loop is closed by a segment).
+    orphan_arches: Vec<usize>,
     diag: LoopDiagnostics,
-    next_branch: u64,
+    failed: bool,
 }
 
-impl State {
-    /// A point of chain `c`'s frame after its first `m` maps, taken back to the disk.
-    fn to_disk(&self, mut c: usize, mut m: usize, mut z: Complex64) -> Complex64 {
-        loop {
-            let (chain, parent) = &self.chains[c];
-            z = chain.apply_prefix(m, z);
-            match parent {
-                Some((p, k)) => {
-                    c = *p;
-                    m = *k;
-                }
-                None => return z,
-            }
-        }
-    }
-
-    fn new_loop(&mut self, depth: u32, parent: Option<u64>, first: Complex64) -> u64 {
-        let id = self.meta.len() as u64;
-        self.meta.push((depth, parent));
-        self.lines.push(Some(vec![first]));
-        self.around_cr.push(None);
-        id
-    }
-
-    /// Close loop `id` (its owner finished tracing it) and keep it if it is large enough.
-    fn finish_loop(&mut self, id: u64, min_size: f64) {
-        let Some(pts) = self.lines[id as usize].take() else {
-            return;
-        };
-        self.diag.loops_traced += 1;
-        let diameter = diameter(&pts);
-        if diameter < min_size || pts.len() < 3 {
-            self.diag.loops_small += 1;
-            return;
-        }
-        let n = pts.len();
-        let max_spacing = (0..n)
-            .map(|i| (pts[(i + 1) % n] - pts[i]).norm())
-            .fold(0.0, f64::max);
-        let (depth, parent) = self.meta[id as usize];
-        self.done.push(CleLoop {
-            id,
-            parent,
-            depth,
-            points: pts.iter().map(|z| [z.re, z.im]).collect(),
-            diameter,
-            max_spacing,
-            log_cr: self.around_cr[id as usize],
-        });
-    }
-}
-
-/// Largest extent of a point set over 64 directions (within 1 − cos(π/128) ≈ 0.03% of the
-/// diameter... bounded by 0.12% for the 64 directions of a half-turn).
-fn diameter(pts: &[Complex64]) -> f64 {
-    let mut best: f64 = 0.0;
-    for j in 0..64 {
-        let d = Complex64::from_polar(1.0, PI * j as f64 / 64.0);
-        let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
-        for z in pts {
-            let p = z.re * d.re + z.im * d.im;
-            lo = lo.min(p);
-            hi = hi.max(p);
-        }
-        best = best.max(hi - lo);
-    }
-    best
-}
-
-/// Distance of an angle from the nearer end of its range.
-fn end_distance(theta: f64) -> f64 {
-    let a = theta.abs();
-    a.min(TWO_PI - a)
+#[derive(Debug, Clone)]
+struct LoopRec {
+    points: Vec<Complex64>,
+    depth: u32,
+    parent: Option<usize>,
+    complete: bool,
+    seen_from: Option<Complex64>,
+    log_cr: Option<f64>,
+    by_segment: bool,
 }
 
 impl LoopSampler {
-    /// A sampler of CLE_κ in the unit disk keeping loops of diameter ≥ `settings.min_size`, with
-    /// optional marked points (their surrounding loops are reported).
+    /// A sampler for CLE_κ.
     ///
-    /// Errors: [`Error::InvalidParameter`] for κ outside (8/3, 8), ε outside [0.005, 1], a grid,
-    /// spacing or stop radius that is not positive and below 1, or a marked point outside the
-    /// open disk.
-    pub fn new(kappa: f64, marked: &[Complex64], settings: LoopSettings) -> Result<Self> {
+    /// Errors: [`Error::InvalidParameter`] unless 8/3 < κ < 8 and the settings pass
+    /// [`LoopSettings::validate`].
+    pub fn new(kappa: f64, settings: LoopSettings) -> Result<Self> {
         let process = AngleProcess::new(kappa)?;
-        let s = settings;
-        if !(s.min_size.is_finite() && (0.005..=1.0).contains(&s.min_size)) {
-            return Err(Error::param(
-                "min-size",
-                s.min_size,
-                "0.005 <= min-size <= 1 (loops of diameter >= min-size are kept; the cost grows \
-                 like 1/min-size^2)",
-            ));
-        }
-        for (name, v) in [
-            ("grid", s.grid),
-            ("spacing", s.spacing),
-            ("stop-cr", s.stop_cr),
-        ] {
-            if !(v.is_finite() && (1e-4..=1.0).contains(&v)) {
-                return Err(Error::param(name, v, "1e-4 <= value <= 1"));
-            }
-        }
-        if !(s.h_max.is_finite() && s.h_max > 0.0 && s.h_max <= 0.5) {
-            return Err(Error::param("h_max", s.h_max, "0 < h_max <= 0.5"));
-        }
-        if !(s.h_min.is_finite() && s.h_min > 0.0 && s.h_min <= s.h_max) {
-            return Err(Error::param("h_min", s.h_min, "0 < h_min <= h_max"));
-        }
-        for z in marked {
-            if !(z.re.is_finite() && z.im.is_finite() && z.norm() < 1.0) {
-                return Err(Error::param(
-                    "at",
-                    z.norm(),
-                    format!(
-                        "|z| < 1 (the point ({}, {}) is not inside the open unit disk)",
-                        z.re, z.im
-                    ),
-                ));
-            }
-        }
-        // Grid targets: a square grid through 0, inside the disk where CR = 1 − |z|² exceeds
-        // the stop radius (closer to the circle a target would be retired at once).
-        let g = s.grid;
-        let n = (1.0 / g).floor() as i64;
-        let mut targets = Vec::new();
-        for i in -n..=n {
-            for j in -n..=n {
-                let z = Complex64::new(i as f64 * g, j as f64 * g);
-                if 1.0 - z.norm_sqr() > s.stop_cr {
-                    targets.push(z);
-                }
-            }
-        }
-        if targets.len() + marked.len() > 2_000_000 {
-            return Err(Error::param(
-                "grid",
-                g,
-                "a grid of at most 2e6 targets (grid >= about 1.3e-3)",
-            ));
-        }
-        Ok(LoopSampler {
-            process,
-            settings,
-            marked: marked.to_vec(),
-            targets,
-        })
+        settings.validate()?;
+        Ok(LoopSampler { process, settings })
     }
 
     /// The settings.
@@ -375,587 +389,1010 @@ impl LoopSampler {
         self.process.kappa()
     }
 
-    /// Number of targets (marked points first, then the grid).
-    pub fn target_count(&self) -> usize {
-        self.marked.len() + self.targets.len()
-    }
-
     /// Configuration `index` of a run with `seed` (a pure function of both).
     pub fn sample(&self, seed: u64, index: u64) -> LoopConfiguration {
-        let all: Vec<Complex64> = self
-            .marked
-            .iter()
-            .chain(self.targets.iter())
-            .copied()
-            .collect();
-        let mut st = State {
-            chains: vec![(DiskChain::new(), None)],
-            meta: Vec::new(),
-            lines: Vec::new(),
-            around_cr: Vec::new(),
-            done: Vec::new(),
-            records: self.marked.iter().map(|&z| PointRecord::new(z)).collect(),
-            retired: vec![false; all.len()],
-            diag: LoopDiagnostics {
-                targets: all.len() as u64,
-                ..Default::default()
-            },
-            next_branch: 1,
-        };
-        let mut br = Branch {
-            theta: 0.0,
-            pts: all
-                .iter()
-                .enumerate()
-                .map(|(id, &w)| Tracked { id, w, ell: 0.0 })
-                .collect(),
-            driver: 0,
-            rng: rng::substream(seed, Tag::Loops, index, 0),
-            before: Vec::new(),
-        };
-        // The target nearest 0 drives first (any choice is exact by target invariance).
-        let k = br.fastest_any();
-        let m = br.renormalise(k);
-        push_map(&mut st.chains[0].0, m);
-        let tip_w = moved(Complex64::new(1.0, 0.0), &m);
-        let tip = st.to_disk(
-            0,
-            st.chains[0].0.len(),
-            Complex64::from_polar(1.0, br.theta),
-        );
-        let root = LBranch {
-            br,
-            chain: 0,
-            exc: None,
-            owns: false,
+        let eps = self.settings.min_size;
+        let mut loops: Vec<LoopRec> = Vec::new();
+        let mut diag = LoopDiagnostics::default();
+        let mut pending: VecDeque<Region> = VecDeque::new();
+        pending.push_back(Region {
+            id: 1,
+            polygon: None,
+            centre: Complex64::new(0.0, 0.0),
             depth: 0,
-            region: None,
-            // First steps from the circle: a slit of length about 2√h should not exceed the
-            // spacing target.
-            h_spatial: (0.25 * self.settings.spacing * self.settings.spacing)
-                .min(self.settings.h_max),
-            tip,
-            tip_w,
-            finishing: 0.0,
-        };
-        let mut stack = vec![root];
-        while let Some(mut b) = stack.pop() {
-            let spawned = self.run_branch(&mut b, &mut st, seed, index);
-            for c in spawned.into_iter().rev() {
-                stack.push(c);
+            parent: None,
+            cont: None,
+            candidates: Vec::new(),
+        });
+        let mut explored = 0usize;
+        while !pending.is_empty() {
+            // A wave: every region whose candidate loops are complete.
+            let mut wave = Vec::new();
+            let mut rest = VecDeque::new();
+            while let Some(mut r) = pending.pop_front() {
+                if r.candidates.iter().all(|&c| loops[c].complete) {
+                    classify(&mut r, &loops);
+                    wave.push(r);
+                } else {
+                    rest.push_back(r);
+                }
+            }
+            pending = rest;
+            if wave.is_empty() {
+                // Cannot happen (every arch loop has a pocket in the queue or was closed); close
+                // whatever is open rather than loop forever.
+                for l in loops.iter_mut().filter(|l| !l.complete) {
+                    l.complete = true;
+                    l.by_segment = true;
+                }
+                continue;
+            }
+            if explored + wave.len() > self.settings.max_regions {
+                diag.truncated = true;
+                wave.truncate(self.settings.max_regions.saturating_sub(explored));
+                pending.clear();
+            }
+            explored += wave.len();
+            let outcomes: Vec<Outcome> = wave
+                .par_iter()
+                .map(|r| {
+                    let mut g = rng::substream(seed, Tag::Loops, index, r.id);
+                    self.explore(r, &mut g)
+                })
+                .collect();
+            for (r, o) in wave.iter().zip(outcomes) {
+                self.merge(r, o, &mut loops, &mut pending, &mut diag);
             }
         }
-        st.diag.branches = st.next_branch;
-        for l in st.done.iter_mut() {
-            l.log_cr = st.around_cr[l.id as usize];
+        for l in loops.iter_mut().filter(|l| !l.complete) {
+            l.complete = true;
+            l.by_segment = true;
         }
-        st.diag.loops_unfinished = st.lines.iter().filter(|l| l.is_some()).count() as u64;
-        st.diag.maps = st.chains.iter().map(|c| c.0.len() as u64).sum();
-        st.diag.chain_bytes = st.chains.iter().map(|c| c.0.memory_bytes() as u64).sum();
+        diag.loops_traced = loops.len() as u64;
+        // Keep loops of diameter ≥ ε, parents before children, renumbered.
+        // A loop with a stretch longer than four spacings (a jump of the trace, or a closing
+        // segment) is not resolved: it is dropped and counted, not drawn.
+        let jump = 4.0 * self.settings.spacing;
+        let mut keep: Vec<(usize, f64)> = Vec::new();
+        for (k, l) in loops.iter().enumerate() {
+            let d = diameter(&l.points);
+            if d < eps {
+                continue;
+            }
+            if max_gap(&l.points) > jump {
+                diag.unresolved += 1;
+                continue;
+            }
+            keep.push((k, d));
+        }
+        keep.sort_by_key(|&(k, _)| (loops[k].depth, k));
+        let mut new_id = vec![usize::MAX; loops.len()];
+        for (j, &(k, _)) in keep.iter().enumerate() {
+            new_id[k] = j;
+        }
+        let out = keep
+            .iter()
+            .enumerate()
+            .map(|(j, &(k, d))| {
+                let l = &loops[k];
+                // A kept loop's parent is at least as large, so it is kept too.
+                let parent = l
+                    .parent
+                    .and_then(|p| (new_id[p] != usize::MAX).then_some(new_id[p]));
+                CleLoop {
+                    id: j,
+                    parent,
+                    depth: l.depth,
+                    points: l.points.clone(),
+                    seen_from: l.seen_from,
+                    log_cr: l.log_cr,
+                    diameter: d,
+                    closed_by_segment: l.by_segment,
+                }
+            })
+            .collect();
         LoopConfiguration {
             index,
-            loops: st.done,
-            marked: st.records,
-            diagnostics: st.diag,
+            loops: out,
+            diagnostics: diag,
         }
     }
 
-    fn is_marked(&self, id: usize) -> bool {
-        id < self.marked.len()
-    }
-
-    /// Retire targets whose conformal radius is below the stop radius; returns false when the
-    /// branch has no live target left (its driver is then kept, retired, to finish a loop).
-    fn retire(&self, b: &mut LBranch, st: &mut State) -> bool {
-        let log_stop = self.settings.stop_cr.ln();
-        for p in &b.br.pts {
-            if !st.retired[p.id] && p.log_cr() < log_stop {
-                st.retired[p.id] = true;
-            }
-        }
-        let dead = |id: usize| st.retired[id];
-        let driver_id = b.br.pts[b.br.driver].id;
-        let live = b.br.pts.iter().filter(|p| !dead(p.id)).count();
-        if live == 0 {
-            let d = b.br.pts[b.br.driver];
-            b.br.pts.clear();
-            b.br.pts.push(d);
-            b.br.driver = 0;
-            return false;
-        }
-        let retired_now = b.br.pts.iter().any(|p| st.retired[p.id]);
-        if retired_now {
-            b.br.pts.retain(|p| !st.retired[p.id]);
-            match b.br.pts.iter().position(|p| p.id == driver_id) {
-                Some(k) => b.br.driver = k,
-                None => {
-                    let k = b.br.fastest_any();
-                    let m = b.br.renormalise(k);
-                    push_map(&mut st.chains[b.chain].0, m);
-                    b.tip_w = moved(b.tip_w, &m);
-                }
-            }
-        }
-        true
-    }
-
-    /// New branches for targets that left `parent` together: one per group still connected to
-    /// each other ([`group_connected`]); see [`LoopSampler::spawn`] for the arguments.
-    #[allow(clippy::too_many_arguments)]
-    fn spawn_groups(
+    /// Turn a region's outcome into loops and new regions.
+    fn merge(
         &self,
-        parent: &LBranch,
-        pts: Vec<Tracked>,
-        theta: f64,
-        prefix: usize,
-        exc: Option<u64>,
-        (depth, region): (u32, Option<u64>),
-        tips: (Complex64, Complex64),
-        st: &mut State,
-        seed: u64,
-        index: u64,
-    ) -> Vec<LBranch> {
-        if pts.is_empty() {
-            return Vec::new();
-        }
-        group_connected(pts, self.settings.pinch)
-            .into_iter()
-            .map(|g| {
-                self.spawn(
-                    parent, theta, g, prefix, exc, depth, region, tips, st, seed, index,
-                )
-            })
-            .collect()
-    }
-
-    /// A new branch for targets that left `parent` (frame with tip at angle `theta`, chain
-    /// prefix `prefix` of the parent's chain).
-    #[allow(clippy::too_many_arguments)]
-    fn spawn(
-        &self,
-        parent: &LBranch,
-        theta: f64,
-        pts: Vec<Tracked>,
-        prefix: usize,
-        exc: Option<u64>,
-        depth: u32,
-        region: Option<u64>,
-        (tip, tip_w): (Complex64, Complex64),
-        st: &mut State,
-        seed: u64,
-        index: u64,
-    ) -> LBranch {
-        let id = st.next_branch;
-        st.next_branch += 1;
-        let mut br = Branch {
-            theta,
-            pts,
-            driver: 0,
-            rng: rng::substream(seed, Tag::Loops, index, id),
-            before: Vec::new(),
-        };
-        let c = st.chains.len();
-        st.chains
-            .push((DiskChain::new(), Some((parent.chain, prefix))));
-        let k = br.fastest_any();
-        let m = br.renormalise(k);
-        push_map(&mut st.chains[c].0, m);
-        let tip_w = moved(tip_w, &m);
-        LBranch {
-            br,
-            chain: c,
-            exc,
-            owns: false,
-            depth,
-            region,
-            h_spatial: parent.h_spatial,
-            tip,
-            tip_w,
-            finishing: 0.0,
-        }
-    }
-
-    /// Shorten `h` until the slit the step may draw stays within the spacing target, predicted
-    /// before the step: a radial slit of length 2√h at the tip, and, when θ is close enough to
-    /// an end for the step to reach it, one at the force point (across the neck of a loop that
-    /// is closing, which can be long in the disk even where it is short in the frame).
-    fn predict_step(&self, b: &LBranch, st: &State, mut h: f64) -> f64 {
-        let s = &self.settings;
-        let kappa = self.process.kappa();
-        let len = st.chains[b.chain].0.len();
-        let theta = b.br.theta;
-        let tip_angle = b.tip_w.arg();
-        for _ in 0..12 {
-            if h <= s.h_min {
-                return s.h_min;
+        r: &Region,
+        o: Outcome,
+        loops: &mut Vec<LoopRec>,
+        pending: &mut VecDeque<Region>,
+        diag: &mut LoopDiagnostics,
+    ) {
+        let big = self.kappa() > 4.0;
+        diag.regions += 1;
+        diag.steps += o.diag.steps;
+        diag.long_segments += o.diag.long_segments;
+        diag.closed_early += o.diag.closed_early;
+        diag.lost_points += o.diag.lost_points;
+        diag.small_regions += o.diag.small_regions;
+        diag.max_polygon = diag.max_polygon.max(o.diag.max_polygon);
+        if o.failed {
+            diag.zipper_failures += 1;
+            if let Some(c) = r.cont {
+                let l = &mut loops[c.loop_idx];
+                l.complete = true;
+                l.by_segment = true;
             }
-            let r = 1.0 - 2.0 * h.sqrt();
-            let at =
-                |ang: f64| (st.to_disk(b.chain, len, Complex64::from_polar(r, ang)) - b.tip).norm();
-            // The step's end is random: cover where the tip can land within about 3σ of θ's
-            // increment.
-            let spread = 3.0 * (kappa * h).sqrt();
-            let mut d = at(tip_angle)
-                .max(at(tip_angle - spread))
-                .max(at(tip_angle + spread));
-            if end_distance(theta) < 6.0 * (kappa * h).sqrt() {
-                d = d.max(at(0.0));
-            }
-            if d <= s.spacing {
-                return h;
-            }
-            h = (h * 0.5 * (s.spacing / d).powi(2)).max(s.h_min);
-        }
-        h
-    }
-
-    /// Run a branch until it has nothing left to do; returns the branches split off.
-    fn run_branch(&self, b: &mut LBranch, st: &mut State, seed: u64, index: u64) -> Vec<LBranch> {
-        let s = &self.settings;
-        let kappa = self.process.kappa();
-        let mut spawned: Vec<LBranch> = Vec::new();
-        let mut counter = 0u32;
-        let mut finishing = false;
-        loop {
-            if st.diag.steps >= s.max_steps {
-                st.diag.truncated = true;
-                return spawned;
-            }
-            if !finishing {
-                counter += 1;
-                if counter % 8 == 1 && !self.retire(b, st) {
-                    finishing = true;
-                }
-            }
-            if finishing && !(b.owns && b.exc.is_some() && b.finishing < s.finish_time) {
-                return spawned;
-            }
-            if b.br.pts.len() > 1 {
-                let (k, pk) = b.br.fastest();
-                if k != b.br.driver && pk > SWITCH_RATIO {
-                    let m = b.br.renormalise(k);
-                    push_map(&mut st.chains[b.chain].0, m);
-                    b.tip_w = moved(b.tip_w, &m);
-                }
-            }
-            // Step length: spacing target, and targets kept away from the tip.
-            let tip_w = Complex64::from_polar(1.0, b.br.theta);
-            let mut h = s.h_max.min(b.h_spatial);
-            for (j, p) in b.br.pts.iter().enumerate() {
-                if j != b.br.driver {
-                    let sep = if self.is_marked(p.id) {
-                        s.separation
-                    } else {
-                        s.target_separation
-                    };
-                    let dist = (tip_w - p.w).norm() / sep;
-                    h = h.min(dist * dist / kappa);
-                }
-            }
-            if h < s.h_min {
-                h = s.h_min;
-                st.diag.floor_steps += 1;
-            }
-            h = self.predict_step(b, st, h);
-            // A loop starts when θ leaves its end.
-            if b.exc.is_none() {
-                let id = st.new_loop(b.depth + 1, b.region, b.tip);
-                b.exc = Some(id);
-                b.owns = true;
-            }
-            b.br.before.clear();
-            let before_pts = std::mem::take(&mut b.br.before);
-            let mut before_pts = before_pts;
-            before_pts.extend_from_slice(&b.br.pts);
-            let theta_before = b.br.theta;
-            let len_before = st.chains[b.chain].0.len();
-            let a = self.process.step(b.br.theta, h, &mut b.br.rng);
-            let side = if a.theta >= 0.0 { -1.0 } else { 1.0 };
-            // At a visit of 0 the loop closed at the force point, where the next excursion
-            // starts: its slit grows from there, not from the old tip.
-            let base = if a.visit == EndVisit::Zero {
-                0.0
-            } else {
-                b.tip_w.arg()
-            };
-            let step = match tilted_step(base, a.theta, h, side) {
-                Some(step) => step,
-                None => {
-                    st.diag.tilt_fallbacks += 1;
-                    let xi = vertical_slit_for_angle(a.theta, h, side);
-                    TiltedRadialStep::new(xi, 0.0, -(-h).exp_m1() / 4.0)
-                }
-            };
-            let driver = b.br.driver;
-            let rot = b.br.advance(&step, side, a.theta);
-            st.chains[b.chain].0.push(DiskMap::Tilted { step, rot });
-            let tip_w_before = b.tip_w;
-            b.tip_w = Complex64::from_polar(1.0, step.tip_angle_after()) * rot;
-            st.diag.steps += 1;
-            if finishing {
-                b.finishing += h;
-            }
-
-            // The new tip in the disk (the slit's tip taken back through the chain before the
-            // step), the spacing control, and the loop's polyline.
-            let tip_before = b.tip;
-            let tip = st.to_disk(b.chain, len_before, step.tip());
-            let d = (tip - b.tip).norm();
-            let ratio = if d > 0.0 { s.spacing / d } else { 2.0 };
-            b.h_spatial = (h * (0.7 * ratio * ratio).min(2.0)).clamp(s.h_min, s.h_max);
-            b.tip = tip;
-            let exc = b.exc.expect("set above");
-            if a.visit == EndVisit::None && b.owns {
-                if let Some(line) = st.lines[exc as usize].as_mut() {
-                    line.push(tip);
-                }
-            }
-
-            // Targets that left: pushed onto the circle by the step (kept with their state
-            // before it) or pinched off from the driver.
-            let (pinched, broken) = b.br.leaving(s.pinch);
-            let mut leaving: Vec<usize> = pinched.clone();
-            leaving.extend(&broken);
-            let mut outside = Vec::new();
-            if a.visit == EndVisit::Full {
-                for (j, p) in b.br.pts.iter().enumerate() {
-                    if j != driver && !leaving.contains(&j) && arc_measure(p.w, b.br.theta) <= 0.5 {
-                        outside.push(j);
-                        leaving.push(j);
-                    }
-                }
-            }
-            let mut children: Vec<LBranch> = Vec::new();
-            let len = st.chains[b.chain].0.len();
-            let pick = |idx: &[usize], from: &[Tracked]| -> Vec<Tracked> {
-                idx.iter().map(|&j| from[j]).collect()
-            };
-            let (d, r) = (b.depth, b.region);
-            let groups = [
-                // Swept by the slit: their state before the step.
-                (
-                    pick(&broken, &before_pts),
-                    theta_before,
-                    len_before,
-                    (tip_before, tip_w_before),
-                ),
-                (pick(&pinched, &b.br.pts), b.br.theta, len, (tip, b.tip_w)),
-            ];
-            for (pts, theta, prefix, tips) in groups {
-                let kids = self.spawn_groups(
-                    b,
-                    pts,
-                    theta,
-                    prefix,
-                    Some(exc),
-                    (d, r),
-                    tips,
-                    st,
-                    seed,
-                    index,
-                );
-                children.extend(kids);
-            }
-            // The loop in progress continues in one branch only: the one whose θ is furthest
-            // from its ends (the others were cut off from the rest of the loop).
-            if b.owns && !children.is_empty() && a.visit == EndVisit::None {
-                let mut best = end_distance(b.br.theta);
-                let mut who = None;
-                for (i, c) in children.iter().enumerate() {
-                    let dc = end_distance(c.br.theta);
-                    if dc > best {
-                        best = dc;
-                        who = Some(i);
-                    }
-                }
-                if let Some(i) = who {
-                    b.owns = false;
-                    children[i].owns = true;
-                }
-            }
-            // Outside the loop that closes around the driver: the loop is finished for them.
-            let pts = pick(&outside, &b.br.pts);
-            let kids = self.spawn_groups(
-                b,
-                pts,
-                b.br.theta,
-                len,
-                None,
-                (d, r),
-                (tip, b.tip_w),
-                st,
-                seed,
-                index,
-            );
-            children.extend(kids);
-            spawned.extend(children);
-
-            match a.visit {
-                EndVisit::None => {}
-                EndVisit::Zero => {
-                    // The loop closed at the force point (its root), not around the driver; the
-                    // next excursion has already started within this step, from the force point.
-                    if b.owns {
-                        st.finish_loop(exc, s.min_size);
-                    }
-                    if finishing {
-                        b.exc = None;
-                        return spawned;
-                    }
-                    let id = st.new_loop(b.depth + 1, b.region, tip);
-                    b.exc = Some(id);
-                    b.owns = true;
-                }
-                EndVisit::Full => {
-                    if st.around_cr[exc as usize].is_none() {
-                        // Seen from the driver, CR of the loop's interior.
-                        st.around_cr[exc as usize] = Some(b.br.pts[driver].log_cr());
-                    }
-                    let (depth, _) = st.meta[exc as usize];
-                    let mut kept = Vec::new();
-                    for (j, p) in b.br.pts.iter().enumerate() {
-                        if leaving.contains(&j) {
-                            continue;
-                        }
-                        if self.is_marked(p.id) {
-                            let rec = &mut st.records[p.id];
-                            rec.loops.push(LoopAround {
-                                level: rec.loops.len() + 1,
-                                loop_id: exc,
-                                log_cr: p.log_cr(),
-                            });
-                        }
-                        kept.push(*p);
-                    }
-                    if b.owns {
-                        st.finish_loop(exc, s.min_size);
-                    }
-                    let was_driver = b.br.pts[driver].id;
-                    b.br.pts = kept;
-                    b.br.driver =
-                        b.br.pts
-                            .iter()
-                            .position(|p| p.id == was_driver)
-                            .unwrap_or(0);
-                    b.depth = depth;
-                    b.region = Some(exc);
-                    b.exc = None;
-                    b.owns = false;
-                    let m = b.br.restart_inside();
-                    push_map(&mut st.chains[b.chain].0, m);
-                    b.tip_w = moved(b.tip_w, &m);
-                    if finishing {
-                        return spawned;
-                    }
-                }
-            }
-            if a.visit != EndVisit::Full && !leaving.is_empty() {
-                let was_driver = b.br.pts[driver].id;
-                let keep: Vec<Tracked> =
-                    b.br.pts
-                        .iter()
-                        .enumerate()
-                        .filter(|(j, _)| !leaving.contains(j))
-                        .map(|(_, p)| *p)
-                        .collect();
-                b.br.pts = keep;
-                b.br.driver =
-                    b.br.pts
-                        .iter()
-                        .position(|p| p.id == was_driver)
-                        .unwrap_or(0);
-            }
-            b.br.before = before_pts;
-        }
-    }
-}
-
-/// The tilted radial step from the tip (at angle `base` from the force point, which sits at
-/// angle 0) of radial time `h` after which the tip sits at angle `theta` from the force point's
-/// image: Newton's method on (c, log s) with a finite-difference Jacobian, to 1e-9·h in radial
-/// time and 1e-10 in angle. `None` when there is no such step (the angle asked for is closer to
-/// the force point than one step can leave it) or Newton's method does not converge.
-///
-/// The angle process already contains the force point's motion, so the slit must be placed
-/// from the geometry after the step, not at the old force point plus θ (which shifts the tip by
-/// the force point's displacement, about 2√h when θ is small).
-fn tilted_step(base: f64, theta: f64, h: f64, side: f64) -> Option<TiltedRadialStep> {
-    let wrap = |x: f64| (x + PI).rem_euclid(TWO_PI) - PI;
-    let eval = |c: f64, ls: f64| {
-        let st = TiltedRadialStep::new(base, c, ls.exp());
-        let eta = st.forward_boundary_angle(0.0, side);
-        let f2 = wrap(st.tip_angle_after() - eta - theta);
-        (st, st.dt - h, f2)
-    };
-    let (mut c, mut ls) = (0.0f64, (-(-h).exp_m1() / 4.0).ln());
-    for _ in 0..30 {
-        let (st, f1, f2) = eval(c, ls);
-        if !(f1.is_finite() && f2.is_finite()) {
-            return None;
-        }
-        if f1.abs() <= 1e-9 * h && f2.abs() <= 1e-10 {
-            return Some(st);
-        }
-        let (dc, dl) = (1e-7 * (1.0 + c.abs()), 1e-7);
-        let (_, a1, a2) = eval(c + dc, ls);
-        let (_, b1, b2) = eval(c, ls + dl);
-        let (j11, j21, j12, j22) = (
-            (a1 - f1) / dc,
-            (a2 - f2) / dc,
-            (b1 - f1) / dl,
-            (b2 - f2) / dl,
-        );
-        let det = j11 * j22 - j12 * j21;
-        if !(det.is_finite() && det != 0.0) {
-            return None;
-        }
-        let step_c = (-(j22 * f1 - j12 * f2) / det).clamp(-2.0, 2.0);
-        let step_l = (-(-j21 * f1 + j11 * f2) / det).clamp(-1.0, 1.0);
-        c += step_c;
-        ls += step_l;
-    }
-    None
-}
-
-/// The base ξ of a vertical slit of radial time `h` (force point at angle 0, on `side` of the
-/// base when they coincide) after which the tip sits at angle `theta` from the force point's
-/// image, `ξ − η(ξ) = θ`: the fallback when no slit from the tip reaches θ, which happens when θ
-/// asks for the tip nearer the force point than the tip is. The slit then starts between the
-/// tip and the force point (the loop is closing there). When even that is impossible,
-/// `|tan(θ/2)| < √(e^h − 1)`, the slit starts at the force point.
-///
-/// In the Cayley frame of the base (DESIGN §2) the force point sits at `x = tan(−ξ/2)` and moves
-/// to `y = sign(x)·e^{h/2}·√(x² + 4s)`, `s = (1 − e^{−h})/4`, at angle `ξ + 2 atan(y)`.
-fn vertical_slit_for_angle(theta: f64, h: f64, side: f64) -> f64 {
-    let y = -(0.5 * theta).tan();
-    let x2 = y * y * (-h).exp() + (-h).exp_m1();
-    let x = if x2 > 0.0 {
-        y.signum() * x2.sqrt()
-    } else {
-        0.0 * side
-    };
-    -2.0 * x.atan()
-}
-
-/// The image of a point of the frame's circle under a frame change.
-fn moved(t: Complex64, m: &DiskMap) -> Complex64 {
-    match *m {
-        DiskMap::Mobius { c, rot } => {
-            let u = rot * (t - c) / (1.0 - c.conj() * t);
-            u / u.norm()
-        }
-        _ => t,
-    }
-}
-
-/// Append a frame change unless it is the identity.
-fn push_map(chain: &mut DiskChain, m: DiskMap) {
-    if let DiskMap::Mobius { c, rot } = m {
-        if c == Complex64::new(0.0, 0.0) && rot == Complex64::new(1.0, 0.0) {
             return;
         }
+        let mut global = vec![usize::MAX; o.pieces.len()];
+        for (i, piece) in o.pieces.iter().enumerate() {
+            let idx = if piece.continues {
+                let c = r.cont.expect("a continuing piece has a loop");
+                loops[c.loop_idx].points.extend_from_slice(&piece.points);
+                c.loop_idx
+            } else {
+                if piece.points.is_empty() {
+                    continue;
+                }
+                let mut pts = Vec::with_capacity(piece.points.len() + 1);
+                pts.push(piece.start);
+                pts.extend_from_slice(&piece.points);
+                loops.push(LoopRec {
+                    points: pts,
+                    depth: r.depth + 1,
+                    parent: r.parent,
+                    complete: false,
+                    seen_from: None,
+                    log_cr: None,
+                    by_segment: false,
+                });
+                loops.len() - 1
+            };
+            global[i] = idx;
+            let l = &mut loops[idx];
+            match piece.end {
+                PieceEnd::Full => {
+                    l.complete = true;
+                    l.seen_from = o.seen_from;
+                    l.log_cr = o.log_cr_final;
+                }
+                PieceEnd::Zero => {
+                    // κ ≤ 4: the whole loop; κ > 4: an arch, completed in its pocket.
+                    if !big {
+                        l.complete = true;
+                    }
+                }
+                PieceEnd::Cut => {
+                    l.complete = true;
+                    l.by_segment = true;
+                }
+                PieceEnd::Handed => {}
+            }
+        }
+        for &i in &o.orphan_arches {
+            if global[i] != usize::MAX {
+                let l = &mut loops[global[i]];
+                l.complete = true;
+            }
+        }
+        // Loops of this exploration that may surround the new regions.
+        let eps = self.settings.min_size;
+        let mut cands: Vec<usize> = global
+            .iter()
+            .copied()
+            .filter(|&g| g != usize::MAX)
+            .filter(|&g| !loops[g].complete || bbox_diagonal(&loops[g].points) >= eps)
+            .collect();
+        cands.dedup();
+        for (k, ch) in o.children.into_iter().enumerate() {
+            let id = mix(r.id, k as u64);
+            match ch.kind {
+                ChildKind::Fresh | ChildKind::Handed => pending.push_back(Region {
+                    id,
+                    polygon: Some(ch.polygon),
+                    centre: ch.centre,
+                    depth: r.depth,
+                    parent: r.parent,
+                    cont: None,
+                    candidates: cands.clone(),
+                }),
+                ChildKind::Arch(i, sign) => {
+                    let piece = &o.pieces[i];
+                    let x = *piece.points.last().unwrap_or(&piece.start);
+                    let loop_idx = global[i];
+                    let p = loops[loop_idx].points[0];
+                    pending.push_back(Region {
+                        id,
+                        polygon: Some(ch.polygon),
+                        centre: ch.centre,
+                        depth: r.depth,
+                        parent: r.parent,
+                        cont: Some(Continuation {
+                            loop_idx,
+                            p,
+                            x,
+                            sign,
+                        }),
+                        candidates: Vec::new(),
+                    });
+                }
+            }
+        }
     }
-    chain.push(m);
+
+    /// Explore one region: the branch towards its point, then what it cut off.
+    fn explore<R: rand::Rng + ?Sized>(&self, r: &Region, rng: &mut R) -> Outcome {
+        let s = &self.settings;
+        let kappa = self.kappa();
+        let big = kappa > 4.0;
+        let mut out = Outcome::default();
+        let frame = match &r.polygon {
+            None => Frame::Disk,
+            Some(p) => match GeodesicZipper::new(p, r.centre) {
+                Ok(z) => Frame::Zip(z),
+                Err(_) => {
+                    out.failed = true;
+                    return out;
+                }
+            },
+        };
+        let centre = r.centre;
+        let mut switches = 0u32;
+        let mut exhausted = false;
+        let log_cr0 = match &frame {
+            Frame::Disk => 0.0,
+            Frame::Zip(z) => z.conformal_radius(r.centre).ln(),
+        };
+        if !log_cr0.is_finite() {
+            out.failed = true;
+            return out;
+        }
+        let cell = s.cell();
+        // Initial state: a fresh exploration from angle 0, or the loop in progress.
+        let (mut xi, mut eta, mut theta, start) = match (r.cont, &r.polygon) {
+            (Some(c), Some(poly)) => {
+                let ap = frame.to_disk(nearest_vertex(poly, c.p)).arg();
+                let ax = frame.to_disk(nearest_vertex(poly, c.x)).arg();
+                let th = if c.sign > 0.0 {
+                    (ax - ap).rem_euclid(TWO_PI)
+                } else {
+                    -(ap - ax).rem_euclid(TWO_PI)
+                };
+                let th = th.signum() * th.abs().clamp(1e-9, TWO_PI - 1e-9);
+                (ax, ap, th, c.x)
+            }
+            (None, Some(poly)) => {
+                // A fresh exploration may start anywhere on the boundary (the loops' law does
+                // not depend on it): start where the boundary is closest to the region's point,
+                // where the frame resolves the plane best.
+                let z = nearest_vertex(poly, r.centre);
+                let a = frame.to_disk(z).arg();
+                (a, a, 0.0, z)
+            }
+            _ => (0.0, 0.0, 0.0, frame.to_plane(Complex64::new(1.0, 0.0))),
+        };
+        // Where the branch is handed on to a child region, if it is: (a point of the child,
+        // whether a loop is in progress).
+        let mut handed: Option<(Complex64, bool)> = None;
+        // The raster of the region; during the exploration a blocked cell holds the step that
+        // blocked it (−1: outside the region).
+        let mut ras = match &r.polygon {
+            None => Raster::disk(cell),
+            Some(p) => Raster::polygon(p, cell),
+        };
+        let mut pieces = vec![Piece {
+            start,
+            points: Vec::new(),
+            end: PieceEnd::Cut,
+            continues: r.cont.is_some(),
+        }];
+        let mut chain = DiskChain::new();
+        let mut prev = start;
+        let cr0 = log_cr0.exp();
+        let mut h_sp = (0.5 * s.spacing / cr0).powi(2).clamp(s.h_min, s.h_max);
+        let mut t = 0.0;
+        let mut t_max = (cr0 / (2.0 * cell)).ln().max(0.0);
+        let mut steps = 0u64;
+        loop {
+            if switches > MAX_SWITCHES {
+                out.diag.closed_early += 1;
+                break;
+            }
+            if t > t_max || steps >= s.max_steps_per_region {
+                // The point's remaining domain is below the resolution: explore towards the
+                // deepest point left instead (target invariance), continuing the loop in
+                // progress.
+                let len = chain.len();
+                let back = |w: Complex64| frame.to_plane(chain.apply_prefix(len, w));
+                let mut best = (f64::NEG_INFINITY, Complex64::new(0.0, 0.0), centre);
+                for &rad in &[0.0, 0.3, 0.6, 0.85, 0.95, 0.985, 0.995] {
+                    let n = if rad == 0.0 { 1 } else { 32 };
+                    for k in 0..n {
+                        let w = Complex64::from_polar(rad, TWO_PI * (k as f64 + 0.5) / n as f64);
+                        let dz = 1e-4 * (1.0 - rad);
+                        let (z, z2) = (back(w), back(w + dz));
+                        let cr = (1.0 - rad * rad) * (z2 - z).norm() / dz;
+                        if cr.is_finite() && cr > best.0 {
+                            best = (cr, w, z);
+                        }
+                    }
+                }
+                switches += 1;
+                if best.0 > 2.0 * cell {
+                    // Hand the branch on: the rest of the domain becomes a region of its own
+                    // (a short chain is a fast one), explored from the tip with the loop in
+                    // progress, if any.
+                    let a_abs = theta.abs();
+                    let d_end = a_abs.min(TWO_PI - a_abs).max(0.0);
+                    let in_loop = d_end > 4.0 * (kappa * h_sp).sqrt();
+                    handed = Some((best.2, in_loop));
+                    break;
+                }
+                if steps >= s.max_steps_per_region {
+                    out.diag.closed_early += 1;
+                    break;
+                }
+                {
+                    // Nothing left wider than the resolution: finish the excursion in progress
+                    // towards the same point, then stop.
+                    exhausted = true;
+                    t_max = f64::INFINITY;
+                    continue;
+                }
+            }
+            let a_abs = theta.abs();
+            let d_end = a_abs.min(TWO_PI - a_abs).max(0.0);
+            // Within a few slits' footprints of the end the push is not resolved further,
+            // but only where the plane allows the end: for κ ≤ 4 the loop must have come back to
+            // its start, for κ > 4 the tip must touch what was there before (the region's
+            // boundary or the trace of 20 steps ago). Until then θ's approach to the end is
+            // resolved (steps of d²/16κ), so the end is not reached early.
+            let allowed = if big {
+                ras.near_old(prev, steps.saturating_sub(20) as i32 + 1)
+            } else {
+                (prev - pieces.last().expect("piece").start).norm() <= 2.0 * s.spacing
+            };
+            let d = if allowed {
+                d_end.max(4.0 * (kappa * h_sp).sqrt())
+            } else {
+                d_end
+            };
+            let h_end = d * d / (s.end_resolution * kappa);
+            let mut h = s.h_max.min(h_sp).min(h_end).max(s.h_min);
+            // Shorten the step until the slits it may draw (at ξ and two standard deviations of
+            // θ's increment either side) end within two spacings of the tip in the plane: the
+            // frame can be compressed where the tip goes next far more than where it was.
+            let len = chain.len();
+            for _ in 0..8 {
+                let spread = 2.0 * (kappa * h).sqrt();
+                let mut worst: f64 = 0.0;
+                for dx in [0.0, -spread, spread] {
+                    let cand = RadialStep::new(xi + dx, h).tip();
+                    let z = frame.to_plane(chain.apply_prefix(len, cand));
+                    worst = worst.max((z - prev).norm());
+                }
+                if worst.is_nan() || worst <= 2.0 * s.spacing || h <= s.h_min {
+                    break;
+                }
+                h = (h * 0.5 * (2.0 * s.spacing / worst).powi(2)).max(s.h_min);
+            }
+            let a = self.process.step(theta, h, rng);
+            let side = if theta > 0.0 || (theta == 0.0 && a.theta >= 0.0) {
+                -1.0
+            } else {
+                1.0
+            };
+            let step = RadialStep::new(xi, h);
+            eta = step.forward_boundary_angle(eta, side);
+            chain.push(DiskMap::Step {
+                step,
+                rot: Complex64::new(1.0, 0.0),
+            });
+            let tip_d = chain
+                .tip_point(chain.len() - 1)
+                .unwrap_or(Complex64::new(1.0, 0.0));
+            let tip = frame.to_plane(tip_d);
+            if !ras.inside(tip) {
+                // The map lost the point (the zipper's precision near a crowded stretch of
+                // boundary): stop this branch and drop the loop in progress.
+                out.diag.lost_points += 1;
+                let last = pieces.last_mut().expect("piece");
+                last.points.clear();
+                last.end = PieceEnd::Cut;
+                last.continues = false;
+                break;
+            }
+            t += h;
+            steps += 1;
+            ras.block_segment(prev, tip, steps.min(i32::MAX as u64 - 1) as i32);
+            let disp = (tip - prev).norm();
+            if disp > 3.0 * s.spacing {
+                out.diag.long_segments += 1;
+            }
+            // The step that would move the tip by about the spacing (displacement ∝ √h), growing
+            // by at most a factor 2 a step.
+            let h_geo = if disp > 0.0 {
+                0.7 * h * (s.spacing / disp).powi(2)
+            } else {
+                f64::INFINITY
+            };
+            // Only steps of the spatial length measure it (shorter steps near an end of θ move
+            // the tip by the force point's push as much as by the slit).
+            if h >= 0.5 * h_sp {
+                h_sp = h_geo.min(2.0 * h_sp).clamp(s.h_min, s.h_max);
+            }
+            prev = tip;
+            pieces
+                .last_mut()
+                .expect("at least one piece")
+                .points
+                .push(tip);
+            match a.visit {
+                EndVisit::None => {
+                    theta = a.theta;
+                    xi = eta + theta;
+                }
+                EndVisit::Zero => {
+                    pieces.last_mut().expect("piece").end = PieceEnd::Zero;
+                    if exhausted {
+                        break;
+                    }
+                    // The arc between the force point and the tip (the loop's inner side for
+                    // κ ≤ 4, the pocket under the arch for κ > 4) is cut off: the next excursion
+                    // grows from the end of that arc on its own side, never inside it. The tip
+                    // is where the loop closed (κ ≤ 4) or landed (κ > 4), and the next one
+                    // starts there.
+                    let ccw_end_is_tip = theta > 0.0;
+                    let grows_ccw = a.theta >= 0.0;
+                    if grows_ccw == ccw_end_is_tip {
+                        eta = step.xi;
+                    }
+                    theta = a.theta;
+                    xi = eta + theta;
+                    let start = tip;
+                    pieces.push(Piece {
+                        start,
+                        points: Vec::new(),
+                        end: PieceEnd::Cut,
+                        continues: false,
+                    });
+                }
+                EndVisit::Full => {
+                    pieces.last_mut().expect("piece").end = PieceEnd::Full;
+                    out.log_cr_final = Some(log_cr0 - t);
+                    out.seen_from = Some(centre);
+                    break;
+                }
+            }
+        }
+        out.diag.steps = steps;
+        drop(chain);
+        // What the branch cut off.
+        for v in ras.cells.iter_mut() {
+            if *v != 0 {
+                *v = -1;
+            }
+        }
+        let comps = ras.components();
+        let mut arch_of: Vec<Option<ChildKind>> = vec![None; comps.len()];
+        if let Some((z, in_loop)) = handed {
+            let last = pieces.len() - 1;
+            match ras.label_at(z) {
+                Some(k) => {
+                    arch_of[k] = Some(if in_loop {
+                        pieces[last].end = PieceEnd::Handed;
+                        ChildKind::Arch(last, if theta < 0.0 { -1.0 } else { 1.0 })
+                    } else {
+                        ChildKind::Handed
+                    });
+                }
+                None => out.diag.closed_early += 1,
+            }
+        }
+        if big {
+            for (i, piece) in pieces.iter().enumerate() {
+                if piece.end != PieceEnd::Zero || piece.points.len() < 2 {
+                    continue;
+                }
+                let mut pts = vec![piece.start];
+                pts.extend_from_slice(&piece.points);
+                let mut found = None;
+                for w in pts.windows(2).take(12) {
+                    let (a, b) = (w[0], w[1]);
+                    let len = (b - a).norm();
+                    if len == 0.0 {
+                        continue;
+                    }
+                    let n = Complex64::new(0.0, 1.0) * (b - a) / len;
+                    if let Some(k) = ras.label_at(0.5 * (a + b) + n * (2.0 * cell)) {
+                        found = Some(k);
+                        break;
+                    }
+                }
+                match found {
+                    Some(k) if arch_of[k].is_none() => arch_of[k] = Some(ChildKind::Arch(i, 1.0)),
+                    _ => out.orphan_arches.push(i),
+                }
+            }
+        }
+        let eps = s.min_size;
+        for (k, c) in comps.iter().enumerate() {
+            let size = c.diagonal(cell);
+            let kind = match arch_of[k].clone() {
+                Some(ChildKind::Handed) => {
+                    if size < 4.0 * cell {
+                        out.diag.small_regions += 1;
+                        continue;
+                    }
+                    ChildKind::Handed
+                }
+                Some(ChildKind::Arch(i, sign)) => {
+                    let piece = &pieces[i];
+                    let mut lo = c.lo(&ras);
+                    let mut hi = c.hi(&ras);
+                    for z in piece.points.iter().chain(std::iter::once(&piece.start)) {
+                        lo = Complex64::new(lo.re.min(z.re), lo.im.min(z.im));
+                        hi = Complex64::new(hi.re.max(z.re), hi.im.max(z.im));
+                    }
+                    if size < 4.0 * cell || (hi - lo).norm() < eps {
+                        out.diag.small_regions += 1;
+                        out.orphan_arches.push(i);
+                        continue;
+                    }
+                    ChildKind::Arch(i, sign)
+                }
+                Some(ChildKind::Fresh) | None => {
+                    // No loop of diameter ε is looked for in a region narrower than ε/5 (or
+                    // than six cells): a CLE loop is rarely much longer than the width of the
+                    // region that holds it.
+                    let width = 2.0 * c.inradius as f64 * cell;
+                    if size < eps || width < (0.2 * eps).max(6.0 * cell) {
+                        out.diag.small_regions += 1;
+                        continue;
+                    }
+                    ChildKind::Fresh
+                }
+            };
+            let polygon = ras.contour(c.label);
+            if polygon.len() < 4 {
+                out.diag.small_regions += 1;
+                if let ChildKind::Arch(i, _) = kind {
+                    out.orphan_arches.push(i);
+                }
+                continue;
+            }
+            out.diag.max_polygon = out.diag.max_polygon.max(polygon.len() as u64);
+            out.children.push(Child {
+                polygon,
+                centre: ras.centre(c.deepest),
+                kind,
+            });
+        }
+        out.pieces = pieces;
+        out
+    }
+}
+
+/// Depth and parent of a fresh region: inside one of its candidate loops, or as its parent
+/// region.
+fn classify(r: &mut Region, loops: &[LoopRec]) {
+    for &c in &r.candidates {
+        let l = &loops[c];
+        if l.points.len() >= 3 && winding_number(&l.points, r.centre) != 0 {
+            r.depth = l.depth;
+            r.parent = Some(c);
+            break;
+        }
+    }
+    r.candidates.clear();
+}
+
+/// A child's address in the tree of regions, hashed (SplitMix64 finaliser).
+fn mix(parent: u64, k: u64) -> u64 {
+    let mut z = parent
+        .wrapping_mul(0x9E37_79B9_7F4A_7C15)
+        .wrapping_add(k.wrapping_add(1).wrapping_mul(0xD1B5_4A32_D192_ED03));
+    z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
+    z ^ (z >> 31)
+}
+
+fn nearest_vertex(poly: &[Complex64], z: Complex64) -> Complex64 {
+    *poly
+        .iter()
+        .min_by(|a, b| (**a - z).norm_sqr().total_cmp(&(**b - z).norm_sqr()))
+        .unwrap_or(&z)
+}
+
+/// Longest segment of a closed polyline (closing segment included).
+fn max_gap(p: &[Complex64]) -> f64 {
+    let n = p.len();
+    (0..n)
+        .map(|k| (p[(k + 1) % n] - p[k]).norm())
+        .fold(0.0, f64::max)
+}
+
+fn bbox_diagonal(p: &[Complex64]) -> f64 {
+    if p.is_empty() {
+        return 0.0;
+    }
+    let (mut lo, mut hi) = (p[0], p[0]);
+    for z in p {
+        lo = Complex64::new(lo.re.min(z.re), lo.im.min(z.im));
+        hi = Complex64::new(hi.re.max(z.re), hi.im.max(z.im));
+    }
+    (hi - lo).norm()
+}
+
+/// Diameter of a point set, from its extent in 32 directions (within 0.5% of the exact value).
+pub fn diameter(p: &[Complex64]) -> f64 {
+    if p.len() < 2 {
+        return 0.0;
+    }
+    (0..32)
+        .map(|k| {
+            let u = Complex64::from_polar(1.0, PI * k as f64 / 32.0);
+            let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+            for z in p {
+                let x = z.re * u.re + z.im * u.im;
+                lo = lo.min(x);
+                hi = hi.max(x);
+            }
+            hi - lo
+        })
+        .fold(0.0, f64::max)
+}
+
+/// A component of free cells.
+#[derive(Debug, Clone, Copy)]
+struct Component {
+    label: i32,
+    lo: (usize, usize),
+    hi: (usize, usize),
+    deepest: usize,
+    /// Distance of the deepest cell to the nearest blocked or outside cell, in cells.
+    inradius: u32,
+}
+
+impl Component {
+    fn diagonal(&self, cell: f64) -> f64 {
+        let dx = (self.hi.0 - self.lo.0 + 1) as f64;
+        let dy = (self.hi.1 - self.lo.1 + 1) as f64;
+        cell * (dx * dx + dy * dy).sqrt()
+    }
+    fn lo(&self, r: &Raster) -> Complex64 {
+        Complex64::new(r.x0 + self.lo.0 as f64 * r.c, r.y0 + self.lo.1 as f64 * r.c)
+    }
+    fn hi(&self, r: &Raster) -> Complex64 {
+        Complex64::new(
+            r.x0 + (self.hi.0 + 1) as f64 * r.c,
+            r.y0 + (self.hi.1 + 1) as f64 * r.c,
+        )
+    }
+}
+
+/// A raster of a region: cells are outside or blocked (−1), or free (0, then a label ≥ 1).
+#[derive(Debug, Clone)]
+struct Raster {
+    x0: f64,
+    y0: f64,
+    c: f64,
+    nx: usize,
+    ny: usize,
+    cells: Vec<i32>,
+}
+
+impl Raster {
+    fn empty(lo: Complex64, hi: Complex64, c: f64) -> Raster {
+        let x0 = lo.re - c;
+        let y0 = lo.im - c;
+        let nx = ((hi.re - x0) / c).ceil() as usize + 2;
+        let ny = ((hi.im - y0) / c).ceil() as usize + 2;
+        Raster {
+            x0,
+            y0,
+            c,
+            nx,
+            ny,
+            cells: vec![-1; nx * ny],
+        }
+    }
+
+    fn disk(c: f64) -> Raster {
+        let mut r = Raster::empty(Complex64::new(-1.0, -1.0), Complex64::new(1.0, 1.0), c);
+        for j in 0..r.ny {
+            for i in 0..r.nx {
+                if r.centre_of(i, j).norm() < 1.0 - 0.5 * c {
+                    r.cells[j * r.nx + i] = 0;
+                }
+            }
+        }
+        r
+    }
+
+    /// Cells whose centre is inside the polygon (even–odd rule on each row).
+    fn polygon(p: &[Complex64], c: f64) -> Raster {
+        let (mut lo, mut hi) = (p[0], p[0]);
+        for z in p {
+            lo = Complex64::new(lo.re.min(z.re), lo.im.min(z.im));
+            hi = Complex64::new(hi.re.max(z.re), hi.im.max(z.im));
+        }
+        let mut r = Raster::empty(lo, hi, c);
+        let n = p.len();
+        let mut xs = Vec::new();
+        for j in 0..r.ny {
+            let y = r.y0 + (j as f64 + 0.5) * c;
+            xs.clear();
+            for k in 0..n {
+                let (a, b) = (p[k], p[(k + 1) % n]);
+                if (a.im <= y) != (b.im <= y) {
+                    xs.push(a.re + (y - a.im) / (b.im - a.im) * (b.re - a.re));
+                }
+            }
+            xs.sort_by(f64::total_cmp);
+            for pair in xs.chunks(2) {
+                if pair.len() < 2 {
+                    break;
+                }
+                let i0 = ((pair[0] - r.x0) / c - 0.5).ceil().max(0.0) as usize;
+                let i1 = ((pair[1] - r.x0) / c - 0.5).floor();
+                if i1 < 0.0 {
+                    continue;
+                }
+                for i in i0..=(i1 as usize).min(r.nx - 1) {
+                    r.cells[j * r.nx + i] = 0;
+                }
+            }
+        }
+        r
+    }
+
+    fn centre_of(&self, i: usize, j: usize) -> Complex64 {
+        Complex64::new(
+            self.x0 + (i as f64 + 0.5) * self.c,
+            self.y0 + (j as f64 + 0.5) * self.c,
+        )
+    }
+
+    fn centre(&self, k: usize) -> Complex64 {
+        self.centre_of(k % self.nx, k / self.nx)
+    }
+
+    fn index_of(&self, z: Complex64) -> Option<(usize, usize)> {
+        let fi = ((z.re - self.x0) / self.c).floor();
+        let fj = ((z.im - self.y0) / self.c).floor();
+        if fi < 0.0 || fj < 0.0 || fi >= self.nx as f64 || fj >= self.ny as f64 || !fi.is_finite() {
+            return None;
+        }
+        Some((fi as usize, fj as usize))
+    }
+
+    /// Whether a cell within two cells of `z` is outside the region or was blocked before step
+    /// `limit`.
+    fn near_old(&self, z: Complex64, limit: i32) -> bool {
+        let Some((i, j)) = self.index_of(z) else {
+            return true;
+        };
+        for dj in -2i64..=2 {
+            for di in -2i64..=2 {
+                let (ii, jj) = (i as i64 + di, j as i64 + dj);
+                if ii < 0 || jj < 0 || ii >= self.nx as i64 || jj >= self.ny as i64 {
+                    return true;
+                }
+                let v = self.cells[jj as usize * self.nx + ii as usize];
+                if v == -1 || (v >= 1 && v < limit) {
+                    return true;
+                }
+            }
+        }
+        false
+    }
+
+    /// Block the free cells along the segment and their eight neighbours with `stamp` (≥ 1).
+    fn block_segment(&mut self, a: Complex64, b: Complex64, stamp: i32) {
+        let n = ((b - a).norm() / (0.5 * self.c)).ceil().clamp(1.0, 1e6) as usize;
+        for k in 0..=n {
+            let z = a + (b - a) * (k as f64 / n as f64);
+            if let Some((i, j)) = self.index_of(z) {
+                for dj in -1i64..=1 {
+                    for di in -1i64..=1 {
+                        let (ii, jj) = (i as i64 + di, j as i64 + dj);
+                        if ii >= 0 && jj >= 0 && (ii as usize) < self.nx && (jj as usize) < self.ny
+                        {
+                            let v = &mut self.cells[jj as usize * self.nx + ii as usize];
+                            if *v == 0 {
+                                *v = stamp;
+                            }
+                        }
+                    }
+                }
+            }
+        }
+    }
+
+    /// Whether `z` lies in a cell of the region (free or blocked, not outside) or next to one.
+    fn inside(&self, z: Complex64) -> bool {
+        let Some((i, j)) = self.index_of(z) else {
+            return false;
+        };
+        for dj in -1i64..=1 {
+            for di in -1i64..=1 {
+                let (ii, jj) = (i as i64 + di, j as i64 + dj);
+                if ii >= 0
+                    && jj >= 0
+                    && ii < self.nx as i64
+                    && jj < self.ny as i64
+                    && self.cells[jj as usize * self.nx + ii as usize] != -1
+                {
+                    return true;
+                }
+            }
+        }
+        false
+    }
+
+    fn label_at(&self, z: Complex64) -> Option<usize> {
+        let (i, j) = self.index_of(z)?;
+        let l = self.cells[j * self.nx + i];
+        (l >= 1).then(|| l as usize - 1)
+    }
+
+    /// Label the 4-connected components of free cells (in scan order) and find each one's
+    /// deepest cell (largest distance to a blocked or outside cell, 8-neighbour steps).
+    fn components(&mut self) -> Vec<Component> {
+        let (nx, ny) = (self.nx, self.ny);
+        // Distance to the nearest non-free cell, by breadth-first search.
+        let mut dist = vec![u32::MAX; nx * ny];
+        let mut q = VecDeque::new();
+        for (k, (d, &c)) in dist.iter_mut().zip(&self.cells).enumerate() {
+            if c < 0 {
+                *d = 0;
+                q.push_back(k);
+            }
+        }
+        while let Some(k) = q.pop_front() {
+            let (i, j) = ((k % nx) as i64, (k / nx) as i64);
+            for dj in -1i64..=1 {
+                for di in -1i64..=1 {
+                    let (ii, jj) = (i + di, j + dj);
+                    if ii < 0 || jj < 0 || ii >= nx as i64 || jj >= ny as i64 {
+                        continue;
+                    }
+                    let kk = jj as usize * nx + ii as usize;
+                    if dist[kk] == u32::MAX {
+                        dist[kk] = dist[k] + 1;
+                        q.push_back(kk);
+                    }
+                }
+            }
+        }
+        let mut comps = Vec::new();
+        let mut stack = Vec::new();
+        for k0 in 0..nx * ny {
+            if self.cells[k0] != 0 {
+                continue;
+            }
+            let label = comps.len() as i32 + 1;
+            let mut c = Component {
+                label,
+                lo: (k0 % nx, k0 / nx),
+                hi: (k0 % nx, k0 / nx),
+                deepest: k0,
+                inradius: 0,
+            };
+            self.cells[k0] = label;
+            stack.push(k0);
+            while let Some(k) = stack.pop() {
+                let (i, j) = (k % nx, k / nx);
+                c.lo = (c.lo.0.min(i), c.lo.1.min(j));
+                c.hi = (c.hi.0.max(i), c.hi.1.max(j));
+                if dist[k] > dist[c.deepest] || (dist[k] == dist[c.deepest] && k < c.deepest) {
+                    c.deepest = k;
+                }
+                let nb = [
+                    (i > 0).then(|| k - 1),
+                    (i + 1 < nx).then(|| k + 1),
+                    (j > 0).then(|| k - nx),
+                    (j + 1 < ny).then(|| k + nx),
+                ];
+                for kk in nb.into_iter().flatten() {
+                    if self.cells[kk] == 0 {
+                        self.cells[kk] = label;
+                        stack.push(kk);
+                    }
+                }
+            }
+            c.inradius = dist[c.deepest];
+            comps.push(c);
+        }
+        comps
+    }
+
+    /// The outer boundary of component `label`: the cell edges between it and other cells,
+    /// linked counterclockwise (turning left first at a corner shared by two diagonal cells, so
+    /// that 4-connected components stay apart), as the polygon of the edges' midpoints.
+    fn contour(&self, label: i32) -> Vec<Complex64> {
+        let (nx, ny) = (self.nx, self.ny);
+        let is = |i: i64, j: i64| -> bool {
+            i >= 0 && j >= 0 && i < nx as i64 && j < ny as i64 && {
+                self.cells[j as usize * nx + i as usize] == label
+            }
+        };
+        // Outgoing edges per corner: bit d set for direction d (0 E, 1 N, 2 W, 3 S).
+        let w = nx + 1;
+        let mut out = std::collections::BTreeMap::<usize, u8>::new();
+        let mut first = None;
+        for j in 0..ny as i64 {
+            for i in 0..nx as i64 {
+                if !is(i, j) {
+                    continue;
+                }
+                let (iu, ju) = (i as usize, j as usize);
+                let mut add = |ci: usize, cj: usize, d: u8| {
+                    let key = cj * w + ci;
+                    *out.entry(key).or_insert(0) |= 1 << d;
+                    if first.is_none() {
+                        first = Some((key, d));
+                    }
+                };
+                if !is(i, j - 1) {
+                    add(iu, ju, 0);
+                }
+                if !is(i + 1, j) {
+                    add(iu + 1, ju, 1);
+                }
+                if !is(i, j + 1) {
+                    add(iu + 1, ju + 1, 2);
+                }
+                if !is(i - 1, j) {
+                    add(iu, ju + 1, 3);
+                }
+            }
+        }
+        let step = |key: usize, d: u8| -> usize {
+            match d {
+                0 => key + 1,
+                1 => key + w,
+                2 => key - 1,
+                _ => key - w,
+            }
+        };
+        let mut best: Vec<Complex64> = Vec::new();
+        let mut best_area = 0.0;
+        while let Some((&k0, _)) = out.iter().find(|(_, &m)| m != 0) {
+            let m0 = out[&k0];
+            let d0 = m0.trailing_zeros() as u8;
+            let (mut key, mut d) = (k0, d0);
+            let mut poly = Vec::new();
+            loop {
+                // Use the edge (key, d).
+                if let Some(m) = out.get_mut(&key) {
+                    *m &= !(1 << d);
+                }
+                let a = (key % w, key / w);
+                let next = step(key, d);
+                let b = (next % w, next / w);
+                poly.push(Complex64::new(
+                    self.x0 + 0.5 * (a.0 + b.0) as f64 * self.c,
+                    self.y0 + 0.5 * (a.1 + b.1) as f64 * self.c,
+                ));
+                key = next;
+                let m = out.get(&key).copied().unwrap_or(0);
+                let order = [(d + 1) % 4, d, (d + 3) % 4];
+                match order.iter().find(|&&e| m & (1 << e) != 0) {
+                    Some(&e) => d = e,
+                    None => break,
+                }
+            }
+            let area = crate::polygon::signed_area(&poly);
+            if area > best_area {
+                best_area = area;
+                best = poly;
+            }
+            let _ = first;
+        }
+        best
+    }
 }
 
 #[cfg(test)]
@@ -963,55 +1400,98 @@ mod tests {
     use super::*;
 
     #[test]
+    fn contour_of_a_component_follows_its_cells() {
+        let mut r = Raster::disk(0.05);
+        r.block_segment(Complex64::new(-1.0, 0.0), Complex64::new(1.0, 0.0), 1);
+        for v in r.cells.iter_mut() {
+            if *v != 0 {
+                *v = -1;
+            }
+        }
+        let comps = r.components();
+        assert_eq!(comps.len(), 2, "the diameter cuts the disk in two");
+        for c in &comps {
+            let p = r.contour(c.label);
+            let a = crate::polygon::signed_area(&p);
+            // The polygon of edge midpoints differs from the union of the component's squares
+            // by at most a triangle of area c²/8 at each vertex (exact, by construction).
+            let cells = r.cells.iter().filter(|&&v| v == c.label).count() as f64;
+            let c2 = 0.05 * 0.05;
+            assert!(
+                (a - cells * c2).abs() <= p.len() as f64 * c2 / 8.0 + 1e-12,
+                "area {a}, cells {}",
+                cells * c2
+            );
+            // Roughly half the disk each, less the band of blocked cells.
+            assert!(a > 1.2 && a < PI / 2.0, "area {a}");
+            assert!(winding_number(&p, r.centre(c.deepest)) == 1);
+        }
+    }
+
+    #[test]
+    fn the_zipper_frame_of_a_raster_region_maps_its_centre_and_stays_inside() {
+        // A region as the sampler makes them: a component of the raster of the disk cut by a
+        // chord, its contour, and the geodesic zipper onto D with the deepest cell at 0.
+        let mut r = Raster::disk(0.01);
+        r.block_segment(Complex64::new(-1.0, 0.3), Complex64::new(1.0, 0.3), 1);
+        for v in r.cells.iter_mut() {
+            if *v != 0 {
+                *v = -1;
+            }
+        }
+        let comps = r.components();
+        let big = comps.iter().max_by_key(|c| c.inradius).unwrap();
+        let poly = r.contour(big.label);
+        let centre = r.centre(big.deepest);
+        let z = GeodesicZipper::new(&poly, centre).unwrap();
+        assert!(z.to_disk(centre).norm() < 1e-9);
+        for k in 0..64 {
+            let w = Complex64::from_polar(0.99, TWO_PI * k as f64 / 64.0);
+            let p = z.from_disk(w);
+            assert!(
+                winding_number(&poly, p) != 0,
+                "{w} ↦ {p} outside the region"
+            );
+            assert!(r.inside(p));
+        }
+        // CR ≥ distance to the boundary (Schwarz lemma) and ≤ 4 times it (Koebe 1/4 theorem).
+        let dist = poly
+            .iter()
+            .map(|q| (q - centre).norm())
+            .fold(f64::INFINITY, f64::min);
+        let cr = z.conformal_radius(centre);
+        assert!(
+            cr >= dist * 0.99 && cr <= 4.0 * dist,
+            "CR {cr}, distance {dist}"
+        );
+    }
+
+    #[test]
+    fn a_configuration_does_not_depend_on_the_number_of_threads() {
+        let ls = LoopSampler::new(6.0, LoopSettings::defaults(0.4)).unwrap();
+        let one = rayon::ThreadPoolBuilder::new()
+            .num_threads(1)
+            .build()
+            .unwrap();
+        let two = rayon::ThreadPoolBuilder::new()
+            .num_threads(2)
+            .build()
+            .unwrap();
+        let a = one.install(|| ls.sample(3, 1));
+        let b = two.install(|| ls.sample(3, 1));
+        assert_eq!(a, b);
+        assert!(a.diagnostics.regions >= 1);
+    }
+
+    #[test]
     fn a_configuration_is_a_pure_function_of_seed_and_index() {
-        // One target (grid spacing 0.99 keeps only 0), κ = 3, ε = 0.6: small and fast.
-        let mut s = LoopSettings::defaults(0.6);
-        s.grid = 0.99;
-        let ls = LoopSampler::new(3.0, &[Complex64::new(0.2, 0.1)], s).unwrap();
+        let s = LoopSettings::defaults(0.3);
+        let ls = LoopSampler::new(3.0, s).unwrap();
         let a = ls.sample(7, 3);
         let b = ls.sample(7, 3);
         assert_eq!(a, b);
-        assert!(a.diagnostics.steps > 0 && a.diagnostics.loops_traced > 0);
+        assert!(a.diagnostics.steps > 0);
         let c = ls.sample(7, 4);
         assert_ne!(a.diagnostics.steps, c.diagnostics.steps);
-    }
-
-    #[test]
-    fn vertical_fallback_puts_the_tip_at_the_requested_angle() {
-        for &(theta, h) in &[
-            (0.3, 1e-3),
-            (-0.5, 1e-2),
-            (3.0, 1e-4),
-            (5.9, 1e-3),
-            (-6.0, 1e-3),
-        ] {
-            let side = if theta >= 0.0 { -1.0 } else { 1.0 };
-            let xi = vertical_slit_for_angle(theta, h, side);
-            let st = TiltedRadialStep::new(xi, 0.0, -(-h).exp_m1() / 4.0);
-            let eta = st.forward_boundary_angle(0.0, side);
-            let got = (st.tip_angle_after() - eta - theta + PI).rem_euclid(TWO_PI) - PI;
-            assert!(got.abs() < 1e-11, "θ = {theta}, h = {h}: off by {got:e}");
-        }
-        // Closer than one step allows: the slit starts at the force point.
-        assert_eq!(vertical_slit_for_angle(1e-4, 1e-2, -1.0), 0.0);
-    }
-
-    #[test]
-    fn tilted_step_puts_the_tip_at_the_requested_angle() {
-        // After the step the tip sits at θ from the force point's image, and the step's radial
-        // time is h (exact properties of the construction).
-        for &(base, theta, h) in &[
-            (0.3, 0.5, 1e-3),
-            (-0.4, -0.9, 1e-2),
-            (2.0, 2.05, 1e-4),
-            (5.5, 5.6, 1e-3),
-        ] {
-            let side = if theta >= 0.0 { -1.0 } else { 1.0 };
-            let st = tilted_step(base, theta, h, side).expect("reachable");
-            let eta = st.forward_boundary_angle(0.0, side);
-            let got = (st.tip_angle_after() - eta - theta + PI).rem_euclid(TWO_PI) - PI;
-            assert!(got.abs() < 1e-9, "base {base}, θ = {theta}: off by {got:e}");
-            assert!((st.dt - h).abs() <= 1e-9 * h);
-        }
     }
 }

@@ -131,14 +131,13 @@ impl Render for LoopJob<'_> {
         for l in &order {
             let c = depth_colour(l.depth);
             let width = if l.highlighted { 3 * s } else { s };
-            let mut pts = l.points.clone();
-            if let Some(&p) = pts.first() {
-                pts.push(p);
-            }
-            chart.draw_series(LineSeries::new(
-                pts,
-                ShapeStyle::from(&c).stroke_width(width),
-            ))?;
+            // Segment by segment: a polyline's mitred joins turn the sharp reversals of a
+            // fractal curve into long spikes.
+            let n = l.points.len();
+            let style = ShapeStyle::from(&c).stroke_width(width);
+            chart.draw_series(
+                (0..n).map(|k| PathElement::new(vec![l.points[k], l.points[(k + 1) % n]], style)),
+            )?;
         }
         let circle: Vec<(f64, f64)> = (0..=720)
             .map(|k| {
