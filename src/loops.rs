@@ -498,6 +498,26 @@ impl LoopSampler {
         }
     }
 
+    /// `log CR` of the interior of the loop around 0 seen from 0, when the first branch (the
+    /// exploration of the disk towards 0) closes it before being handed on; `None` when it is
+    /// handed on or stopped first. For checks of the branch against the exact law of that loop
+    /// (Schramm, Sheffield & Wilson, Comm. Math. Phys. 2009): with a step budget large enough,
+    /// the branch is handed on only once `CR(D_t, 0)` is below two cells, so `T = −log CR ≤ t`
+    /// is decided for every `t < log(1/(2·cell))`.
+    pub fn first_loop_log_cr(&self, seed: u64, index: u64) -> Option<f64> {
+        let root = Region {
+            id: 1,
+            polygon: None,
+            centre: Complex64::new(0.0, 0.0),
+            depth: 0,
+            parent: None,
+            cont: None,
+            candidates: Vec::new(),
+        };
+        let mut g = rng::substream(seed, Tag::Loops, index, root.id);
+        self.explore(&root, &mut g).log_cr_final
+    }
+
     /// Turn a region's outcome into loops and new regions.
     fn merge(
         &self,
