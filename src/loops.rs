@@ -888,11 +888,7 @@ impl LoopSampler {
         out.diag.steps = steps;
         drop(chain);
         // What the branch cut off.
-        for v in ras.cells.iter_mut() {
-            if *v != 0 {
-                *v = -1;
-            }
-        }
+        ras.seal();
         let comps = ras.components();
         let mut arch_of: Vec<Option<ChildKind>> = vec![None; comps.len()];
         if let Some((z, in_loop)) = handed {
@@ -1251,6 +1247,15 @@ impl Raster {
         false
     }
 
+    /// End of an exploration: every blocked cell becomes a wall (−1), whatever its stamp.
+    fn seal(&mut self) {
+        for v in self.cells.iter_mut() {
+            if *v != 0 {
+                *v = -1;
+            }
+        }
+    }
+
     fn label_at(&self, z: Complex64) -> Option<usize> {
         let (i, j) = self.index_of(z)?;
         let l = self.cells[j * self.nx + i];
@@ -1341,7 +1346,6 @@ impl Raster {
         // Outgoing edges per corner: bit d set for direction d (0 E, 1 N, 2 W, 3 S).
         let w = nx + 1;
         let mut out = std::collections::BTreeMap::<usize, u8>::new();
-        let mut first = None;
         for j in 0..ny as i64 {
             for i in 0..nx as i64 {
                 if !is(i, j) {
@@ -1351,9 +1355,6 @@ impl Raster {
                 let mut add = |ci: usize, cj: usize, d: u8| {
                     let key = cj * w + ci;
                     *out.entry(key).or_insert(0) |= 1 << d;
-                    if first.is_none() {
-                        first = Some((key, d));
-                    }
                 };
                 if !is(i, j - 1) {
                     add(iu, ju, 0);
@@ -1409,7 +1410,6 @@ impl Raster {
                 best_area = area;
                 best = poly;
             }
-            let _ = first;
         }
         best
     }
@@ -1423,11 +1423,7 @@ mod tests {
     fn contour_of_a_component_follows_its_cells() {
         let mut r = Raster::disk(0.05);
         r.block_segment(Complex64::new(-1.0, 0.0), Complex64::new(1.0, 0.0), 1);
-        for v in r.cells.iter_mut() {
-            if *v != 0 {
-                *v = -1;
-            }
-        }
+        r.seal();
         let comps = r.components();
         assert_eq!(comps.len(), 2, "the diameter cuts the disk in two");
         for c in &comps {
@@ -1454,11 +1450,7 @@ mod tests {
         // chord, its contour, and the geodesic zipper onto D with the deepest cell at 0.
         let mut r = Raster::disk(0.01);
         r.block_segment(Complex64::new(-1.0, 0.3), Complex64::new(1.0, 0.3), 1);
-        for v in r.cells.iter_mut() {
-            if *v != 0 {
-                *v = -1;
-            }
-        }
+        r.seal();
         let comps = r.components();
         let big = comps.iter().max_by_key(|c| c.inradius).unwrap();
         let poly = r.contour(big.label);
