@@ -395,15 +395,7 @@ impl LoopSampler {
         let mut loops: Vec<LoopRec> = Vec::new();
         let mut diag = LoopDiagnostics::default();
         let mut pending: VecDeque<Region> = VecDeque::new();
-        pending.push_back(Region {
-            id: 1,
-            polygon: None,
-            centre: Complex64::new(0.0, 0.0),
-            depth: 0,
-            parent: None,
-            cont: None,
-            candidates: Vec::new(),
-        });
+        pending.push_back(Region::root());
         let mut explored = 0usize;
         while !pending.is_empty() {
             // A wave: every region whose candidate loops are complete.
@@ -505,15 +497,7 @@ impl LoopSampler {
     /// the branch is handed on only once `CR(D_t, 0)` is below two cells, so `T = −log CR ≤ t`
     /// is decided for every `t < log(1/(2·cell))`.
     pub fn first_loop_log_cr(&self, seed: u64, index: u64) -> Option<f64> {
-        let root = Region {
-            id: 1,
-            polygon: None,
-            centre: Complex64::new(0.0, 0.0),
-            depth: 0,
-            parent: None,
-            cont: None,
-            candidates: Vec::new(),
-        };
+        let root = Region::root();
         let mut g = rng::substream(seed, Tag::Loops, index, root.id);
         self.explore(&root, &mut g).log_cr_final
     }
@@ -986,6 +970,21 @@ impl LoopSampler {
         }
         out.pieces = pieces;
         out
+    }
+}
+
+impl Region {
+    /// The whole disk, explored towards 0 (its address in the tree of regions is 1).
+    fn root() -> Region {
+        Region {
+            id: 1,
+            polygon: None,
+            centre: Complex64::new(0.0, 0.0),
+            depth: 0,
+            parent: None,
+            cont: None,
+            candidates: Vec::new(),
+        }
     }
 }
 
