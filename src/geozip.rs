@@ -36,6 +36,23 @@ fn sqrt_upper(x: Complex64, tie: Complex64) -> Complex64 {
     }
 }
 
+/// Opens the straightened slit `[0, i·d]`: `√(w² + d²)` in the closed upper half-plane. The
+/// interior of the polygon lies on the slit's left (negative reals), so a point at the slit's
+/// base, within rounding of 0 (a vertex already unzipped sits there, up to the √ε ≈ 1e-8 that
+/// the cancellation in its own unzip leaves; vertex images have modulus about 1 by the
+/// dilations, while d is huge for a vertex image near the real line) goes to
+/// `−d`, the interior side; the principal root would send it to `+d`, the exterior side, and a
+/// boundary vertex would be mapped to a point of the circle far from where the interior meets it.
+#[inline]
+fn open_slit(w: Complex64, d: f64) -> Complex64 {
+    let x = w * w + d * d;
+    if w.norm() <= 1e-7 * d.min(1.0) {
+        let s = x.sqrt();
+        return Complex64::new(-s.re.abs(), s.im.abs());
+    }
+    sqrt_upper(x, w)
+}
+
 /// The conformal map of a polygon's interior onto D (module docs), centre ↦ 0.
 #[derive(Debug, Clone)]
 pub struct GeodesicZipper {
@@ -89,6 +106,14 @@ impl GeodesicZipper {
                 centre.re, centre.im
             )));
         }
+        // Start at the vertex nearest the centre. The first vertex goes to ∞ and the last
+        // edge's end to 0 in the half-plane frame; were they in a fjord hidden from the centre,
+        // the whole visible boundary would be squeezed about the centre's image, which would
+        // lie within 1e-20 of the real line (seen on raster contours): all precision lost.
+        let k = (0..v.len())
+            .min_by(|&i, &j| (v[i] - centre).norm().total_cmp(&(v[j] - centre).norm()))
+            .unwrap_or(0);
+        v.rotate_left(k);
         let (z0, z1) = (v[0], v[1]);
         let mut img: Vec<Complex64> = v[2..].iter().map(|&z| phi(z0, z1, z)).collect();
         let mut maps = Vec::with_capacity(img.len());
@@ -180,7 +205,7 @@ impl GeodesicZipper {
         for &(ic, d, sc) in &self.maps {
             let den = 1.0 - u * ic;
             let w = u / den;
-            let v = sqrt_upper(w * w + d * d, w);
+            let v = open_slit(w, d);
             du *= sc * w / (v * den * den);
             u = sc * v;
         }
@@ -195,6 +220,10 @@ impl GeodesicZipper {
 
     /// The map polygon → D (centre ↦ 0).
     pub fn to_disk(&self, z: Complex64) -> Complex64 {
+        if z == self.z0 {
+            // The first vertex goes to ∞ in the half-plane frame, and ∞ to 1.
+            return Complex64::new(1.0, 0.0);
+        }
         let u = self.to_quadrant(z);
         let q = self.quadrant * u * u;
         (q - self.a) / (q - self.a.conj())
@@ -233,7 +262,7 @@ impl GeodesicZipper {
         for &(ic, d, sc) in &self.maps {
             let den = 1.0 - u * ic;
             let w = u / den;
-            let v = sqrt_upper(w * w + d * d, w);
+            let v = open_slit(w, d);
             log_d += (sc * w / (v * den * den)).norm().ln();
             u = sc * v;
         }
@@ -263,7 +292,7 @@ fn phi(z0: Complex64, z1: Complex64, z: Complex64) -> Complex64 {
 fn unzip(u: Complex64, ic: f64, d: f64) -> Complex64 {
     let w = u / (1.0 - u * ic);
     let w = Complex64::new(w.re, w.im.max(0.0));
-    sqrt_upper(w * w + d * d, w)
+    open_slit(w, d)
 }
 
 #[cfg(test)]
@@ -373,5 +402,40 @@ mod tests {
             assert!((z.to_disk(p) - w).norm() < 1e-9);
         }
         assert!(GeodesicZipper::new(&v, Complex64::new(1.5, 1.5)).is_err());
+    }
+
+    #[test]
+    fn boundary_vertices_are_reached_from_just_inside() {
+        // The boundary correspondence: the image angle of each vertex, approached from inside
+        // D, must lead back to that vertex (an exploration starts its curve there).
+        let corners = [
+            (0.0, 0.0),
+            (2.0, 0.0),
+            (2.0, 1.0),
+            (1.0, 1.0),
+            (1.0, 2.0),
+            (0.0, 2.0),
+        ];
+        let mut v = Vec::new();
+        for k in 0..corners.len() {
+            let a = Complex64::new(corners[k].0, corners[k].1);
+            let b = Complex64::new(corners[(k + 1) % 6].0, corners[(k + 1) % 6].1);
+            for j in 0..40 {
+                v.push(a + (b - a) * (j as f64 / 40.0));
+            }
+        }
+        let z = GeodesicZipper::new(&v, Complex64::new(0.4, 0.6)).unwrap();
+        // Worst distance from a vertex to the image of its angle at 1 − e; the tolerances are
+        // the distance that 1 − e itself stands for (|F'| ≤ about 10 on this polygon, larger at
+        // the reentrant corner, where √e sets the scale) plus rounding.
+        for (e, tol) in [(1e-4, 0.05), (1e-7, 2e-3), (1e-10, 1e-4)] {
+            let mut worst: f64 = 0.0;
+            for &p in &v {
+                let a = z.to_disk(p).arg();
+                let back = z.from_disk(Complex64::from_polar(1.0 - e, a));
+                worst = worst.max((back - p).norm());
+            }
+            assert!(worst < tol, "e = {e}: worst distance {worst}");
+        }
     }
 }

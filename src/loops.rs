@@ -697,39 +697,36 @@ impl LoopSampler {
         let mut t = 0.0;
         let mut t_max = (cr0 / (2.0 * cell)).ln().max(0.0);
         let mut steps = 0u64;
+        let mut wants_hand = false;
         loop {
             if switches > MAX_SWITCHES {
                 out.diag.closed_early += 1;
                 break;
             }
-            if t > t_max || steps >= s.max_steps_per_region {
+            if steps >= 4 * s.max_steps_per_region {
+                out.diag.closed_early += 1;
+                break;
+            }
+            if !wants_hand && (t > t_max || steps >= s.max_steps_per_region) {
                 // The point's remaining domain is below the resolution: explore towards the
-                // deepest point left instead (target invariance), continuing the loop in
-                // progress.
-                let len = chain.len();
-                let back = |w: Complex64| frame.to_plane(chain.apply_prefix(len, w));
-                let mut best = (f64::NEG_INFINITY, Complex64::new(0.0, 0.0), centre);
-                for &rad in &[0.0, 0.3, 0.6, 0.85, 0.95, 0.985, 0.995] {
-                    let n = if rad == 0.0 { 1 } else { 32 };
-                    for k in 0..n {
-                        let w = Complex64::from_polar(rad, TWO_PI * (k as f64 + 0.5) / n as f64);
-                        let dz = 1e-4 * (1.0 - rad);
-                        let (z, z2) = (back(w), back(w + dz));
-                        let cr = (1.0 - rad * rad) * (z2 - z).norm() / dz;
-                        if cr.is_finite() && cr > best.0 {
-                            best = (cr, w, z);
-                        }
-                    }
-                }
+                // deepest point left instead (target invariance).
+                let best = deepest_left(&frame, &chain);
                 switches += 1;
                 if best.0 > 2.0 * cell {
                     // Hand the branch on: the rest of the domain becomes a region of its own
-                    // (a short chain is a fast one), explored from the tip with the loop in
-                    // progress, if any.
-                    let a_abs = theta.abs();
-                    let d_end = a_abs.min(TWO_PI - a_abs).max(0.0);
-                    let in_loop = d_end > 4.0 * (kappa * h_sp).sqrt();
-                    handed = Some((best.2, in_loop));
+                    // (a short chain is a fast one). Between loops at once; within a loop only
+                    // once the excursion in progress has ended, in this frame: the rest of an
+                    // excursion does not depend on the target (target invariance), while a
+                    // new frame centred far from the tip resolves it badly (the loop's two
+                    // ends, seen from there, can be 10⁻⁹ apart in angle). An excursion is in
+                    // progress as soon as it has drawn a point: θ can linger near an end for
+                    // long while the plane does not yet allow the loop to close.
+                    let in_loop = !pieces.last().expect("piece").points.is_empty();
+                    if in_loop {
+                        wants_hand = true;
+                        continue;
+                    }
+                    handed = Some((best.2, false));
                     break;
                 }
                 if steps >= s.max_steps_per_region {
@@ -839,6 +836,13 @@ impl LoopSampler {
                 EndVisit::Zero => {
                     pieces.last_mut().expect("piece").end = PieceEnd::Zero;
                     if exhausted {
+                        break;
+                    }
+                    if wants_hand {
+                        let best = deepest_left(&frame, &chain);
+                        if best.0 > 2.0 * cell {
+                            handed = Some((best.2, false));
+                        }
                         break;
                     }
                     // The arc between the force point and the tip (the loop's inner side for
@@ -986,6 +990,31 @@ impl Region {
             candidates: Vec::new(),
         }
     }
+}
+
+/// The point of the domain left to a branch with the largest conformal radius, among a
+/// polar grid of its frame: `(CR, point of D, point of the plane)`.
+fn deepest_left(frame: &Frame, chain: &DiskChain) -> (f64, Complex64, Complex64) {
+    let len = chain.len();
+    let back = |w: Complex64| frame.to_plane(chain.apply_prefix(len, w));
+    let mut best = (
+        f64::NEG_INFINITY,
+        Complex64::new(0.0, 0.0),
+        back(0.0.into()),
+    );
+    for &rad in &[0.0, 0.3, 0.6, 0.85, 0.95, 0.985, 0.995] {
+        let n = if rad == 0.0 { 1 } else { 32 };
+        for k in 0..n {
+            let w = Complex64::from_polar(rad, TWO_PI * (k as f64 + 0.5) / n as f64);
+            let dz = 1e-4 * (1.0 - rad);
+            let (z, z2) = (back(w), back(w + dz));
+            let cr = (1.0 - rad * rad) * (z2 - z).norm() / dz;
+            if cr.is_finite() && cr > best.0 {
+                best = (cr, w, z);
+            }
+        }
+    }
+    best
 }
 
 /// Depth and parent of a fresh region: inside one of its candidate loops, or as its parent
