@@ -24,11 +24,35 @@ use num_complex::Complex64;
 
 const I: Complex64 = Complex64 { re: 0.0, im: 1.0 };
 
+/// Principal square root by the algebraic formula (two real square roots), the same branch as
+/// `Complex64::sqrt` (cut along the negative reals, `−0` imaginary parts below it) at a
+/// fraction of its cost (`sqrt` through the polar form spent 70% of a configuration's time in
+/// `hypot`, `atan2` and `sincos`).
+#[inline]
+fn csqrt(z: Complex64) -> Complex64 {
+    let (x, y) = (z.re, z.im);
+    if x == 0.0 && y == 0.0 {
+        return Complex64::new(0.0, y);
+    }
+    let r = (x * x + y * y).sqrt();
+    let r = if r.is_finite() && r > 0.0 {
+        r
+    } else {
+        x.hypot(y)
+    };
+    let t = (0.5 * (x.abs() + r)).sqrt();
+    if x >= 0.0 {
+        Complex64::new(t, y / (2.0 * t))
+    } else {
+        Complex64::new(y.abs() / (2.0 * t), t.copysign(y))
+    }
+}
+
 /// Square root in the closed upper half-plane; on the real axis the sign follows `tie`'s real
 /// part (the side of the slit the point came from).
 #[inline]
 fn sqrt_upper(x: Complex64, tie: Complex64) -> Complex64 {
-    let s = x.sqrt();
+    let s = csqrt(x);
     if s.im < 0.0 || (s.im == 0.0 && tie.re < 0.0 && s.re > 0.0) {
         -s
     } else {
@@ -46,8 +70,9 @@ fn sqrt_upper(x: Complex64, tie: Complex64) -> Complex64 {
 #[inline]
 fn open_slit(w: Complex64, d: f64) -> Complex64 {
     let x = w * w + d * d;
-    if w.norm() <= 1e-7 * d.min(1.0) {
-        let s = x.sqrt();
+    let tol = 1e-7 * d.min(1.0);
+    if w.norm_sqr() <= tol * tol {
+        let s = csqrt(x);
         return Complex64::new(-s.re.abs(), s.im.abs());
     }
     sqrt_upper(x, w)
@@ -197,7 +222,7 @@ impl GeodesicZipper {
     pub fn to_disk_with_derivative(&self, z: Complex64) -> (Complex64, Complex64) {
         let m = (z - self.z1) / (z - self.z0);
         let dm = (self.z1 - self.z0) / ((z - self.z0) * (z - self.z0));
-        let mut u = I * m.sqrt();
+        let mut u = I * csqrt(m);
         if u.im < 0.0 {
             u = -u;
         }
@@ -234,9 +259,9 @@ impl GeodesicZipper {
         let q = (self.a - w * self.a.conj()) / (1.0 - w);
         let q = Complex64::new(q.re, q.im.max(0.0));
         let mut u = if self.quadrant > 0.0 {
-            q.sqrt()
+            csqrt(q)
         } else {
-            -(-q).sqrt()
+            -csqrt(-q)
         };
         for &(ic, d, sc) in self.maps.iter().rev() {
             // Points of the closed upper half-plane only: rounding below the real line would
@@ -254,7 +279,7 @@ impl GeodesicZipper {
     pub fn log_abs_derivative(&self, z: Complex64) -> f64 {
         let m = (z - self.z1) / (z - self.z0);
         let dm = (self.z1 - self.z0) / ((z - self.z0) * (z - self.z0));
-        let mut u = I * m.sqrt();
+        let mut u = I * csqrt(m);
         if u.im < 0.0 {
             u = -u;
         }
@@ -280,7 +305,7 @@ impl GeodesicZipper {
 
 #[inline]
 fn phi(z0: Complex64, z1: Complex64, z: Complex64) -> Complex64 {
-    let u = I * ((z - z1) / (z - z0)).sqrt();
+    let u = I * csqrt((z - z1) / (z - z0));
     if u.im < 0.0 {
         -u
     } else {
@@ -437,5 +462,29 @@ mod tests {
             }
             assert!(worst < tol, "e = {e}: worst distance {worst}");
         }
+    }
+
+    #[test]
+    fn the_algebraic_square_root_is_the_principal_one() {
+        let mut worst: f64 = 0.0;
+        for &(x, y) in &[
+            (1.0, 0.0),
+            (-1.0, 0.0),
+            (-1.0, -0.0),
+            (0.0, 1.0),
+            (0.0, -1.0),
+            (-3.0, 1e-300),
+            (-3.0, -1e-300),
+            (1e-300, 1e-300),
+            (1e200, -1e200),
+            (-2.5, 7.0),
+            (0.3, -0.4),
+        ] {
+            let z = Complex64::new(x, y);
+            let (a, b) = (csqrt(z), z.sqrt());
+            worst = worst.max((a - b).norm() / b.norm().max(1e-300));
+            assert_eq!(a.im.is_sign_negative(), b.im.is_sign_negative(), "{z}");
+        }
+        assert!(worst < 1e-15, "relative difference {worst}");
     }
 }
