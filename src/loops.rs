@@ -44,27 +44,36 @@
 //! is a pure function of (seed, index) whatever the number of threads.
 //!
 //! A branch is handed on when its point's conformal radius falls below two cells (or after
-//! 2000 steps: evaluating a chain costs up to its length, so short chains are fast ones): the
-//! component of the raster holding the deepest point left becomes a new region, explored with
-//! the loop in progress (as for an arch) or, between loops, afresh — the loops' law in the
-//! remaining domain does not depend on where a fresh exploration starts, so it starts at the
-//! boundary point nearest the region's point, where the frame resolves the plane best.
+//! 2000 steps: evaluating a chain costs up to its length, so short chains are fast ones), but
+//! only between excursions: an excursion in progress is finished in the frame it started in
+//! (its law does not depend on the target), because a new frame centred far from the tip
+//! resolves it badly. The component of the raster holding the deepest point left then becomes
+//! a new region, explored afresh — the loops' law in the remaining domain does not depend on
+//! where a fresh exploration starts, so it starts at the boundary point nearest the region's
+//! point, where the frame resolves the plane best. A region stops after 8000 steps.
 //!
 //! # Status: experimental, not used by the command line
-//! Measured on this machine (one configuration each, seed 1, index 0, ε = 0.1, spacing ε/6, 2
-//! cores):
-//! * κ = 3: 386 regions, 61 152 steps, 20 s, 17 MB peak memory. 419 loops of diameter ≥ ε
-//!   were traced; the ones drawn look like CLE₃ loops at the spacing, but 406 of them hold a
-//!   stretch longer than four spacings (a jump of the trace) and are dropped as `unresolved`;
-//!   8% of all steps moved the tip more than three spacings (`long_segments`).
-//! * κ = 6: 203 regions, 60 885 steps, 28 s, 15 MB; 115 loops ≥ ε, 103 unresolved; 2% long
-//!   steps. The outermost loops are among the unresolved ones, so the picture is not a
-//!   configuration.
-//! * Where the jumps happen: mostly between loops (θ within 10⁻³ of 0) in regions handed on,
-//!   with steps already at the floor `h_min` = 10⁻¹⁴: the frame is compressed at the tip by a
-//!   factor of 10⁵ or more, far from every point the region is explored towards. A clock that
-//!   follows the tip (a driver chosen near it), or handing on when the tip goes where the
-//!   frame cannot resolve it, is the next thing to try (DEVELOPERS.md, "Where things stand").
+//! Measured on this machine (2 cores, spacing ε/6; `unresolved` = loops of diameter ≥ ε with a
+//! stretch longer than four spacings, dropped):
+//! * κ = 3, ε = 0.1, seed 1: 718 regions, 97 714 steps, 32 s, 18 MB peak; 27 of 97 714 steps
+//!   moved the tip more than three spacings; 11 loops kept, 11 unresolved. Over seeds 1–6 at
+//!   ε = 0.15: 33 kept, 31 unresolved. The kept loops look like CLE₃ loops (sparse: the loop
+//!   around a point has E[−log CR] ≈ 22 at κ = 3 by the SSW law, so large empty stretches of
+//!   gasket are expected).
+//! * κ = 6, ε = 0.1, seed 1: 201 regions, 115 968 steps, 39 s, 17 MB; 13 kept, 38 unresolved.
+//!   Over seeds 1–6 at ε = 0.15: 34 kept, 105 unresolved. Drawn with the unresolved loops, the
+//!   configuration shows the large touching loops of CLE₆, but the large loops are the ones
+//!   dropped: their gap is the segment that closes them (10–60 spacings), left when the pocket
+//!   under one of their arches is not found on the raster (24 of 39 arches wider than 0.05 in
+//!   one configuration) or the branch hits the step budget.
+//! * Three changes to the pocket search were tried and measured worse or no better on the
+//!   six-seed count (searching the whole arch at 2–4.5 cells; sealing the landing point to
+//!   the old trace; taking the component that reaches both ends of the arch). Single-seed
+//!   comparisons are useless here: rounding alone moves one configuration from 22 to 38
+//!   unresolved loops.
+//! * Fixed in the geodesic zipper (they caused most jumps before): boundary vertices were mapped
+//!   to the exterior side of the next opened slit, and a first vertex hidden from the centre
+//!   squeezed the visible boundary to within 10⁻²⁰ of the centre's image.
 //! * No geometric or statistical check of the configurations has been run yet beyond
 //!   determinism; the gating of θ's ends by the plane (below) is what made loops close at their
 //!   start (closing gaps of up to 0.18 before it).

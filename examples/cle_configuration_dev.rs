@@ -1,0 +1,99 @@
+//! Development harness for the experimental CLE_κ configuration sampler (`sleek::loops`), which
+//! is not in the command line yet: samples configurations, prints their counters and the gap of
+//! each kept loop, and draws the last one.
+//!
+//! ```text
+//! cargo run --release --example cle_configuration_dev -- KAPPA MIN_SIZE SEED [SEED…]
+//! ```
+//! The figure goes to `output/dev/cle_KAPPA_MIN_SIZE_SEED.png`. With several seeds a last line
+//! sums the loops kept and dropped (compare changes on several seeds: one configuration is
+//! chaotic in rounding). The configurations are not yet right (see the module docs of
+//! `sleek::loops`); this is a tool for working on them, not a result.
+
+use sleek::loops::{LoopSampler, LoopSettings};
+use sleek::plot_loops::{DrawnLoop, LoopFigure, LoopStyle};
+use std::time::Instant;
+
+fn main() {
+    if let Err(e) = run() {
+        eprintln!("error: {e}");
+        std::process::exit(2);
+    }
+}
+
+fn run() -> Result<(), Box<dyn std::error::Error>> {
+    let args: Vec<String> = std::env::args().skip(1).collect();
+    if args.len() < 3 {
+        return Err("usage: cle_configuration_dev KAPPA MIN_SIZE SEED [SEED…]".into());
+    }
+    let kappa: f64 = args[0]
+        .parse()
+        .map_err(|_| format!("KAPPA {:?} is not a number (8/3 < κ < 8)", args[0]))?;
+    let eps: f64 = args[1]
+        .parse()
+        .map_err(|_| format!("MIN_SIZE {:?} is not a number", args[1]))?;
+    let settings = LoopSettings::defaults(eps);
+    settings.validate()?;
+    let sampler = LoopSampler::new(kappa, settings)?;
+    let (mut kept, mut dropped) = (0usize, 0u64);
+    for s in &args[2..] {
+        let seed: u64 = s
+            .parse()
+            .map_err(|_| format!("SEED {s:?} is not a non-negative integer"))?;
+        let t = Instant::now();
+        let c = sampler.sample(seed, 0);
+        let secs = t.elapsed().as_secs_f64();
+        println!(
+            "seed {seed}: {:.1} s, {} loops kept, {:?}",
+            secs,
+            c.loops.len(),
+            c.diagnostics
+        );
+        for l in &c.loops {
+            let n = l.points.len();
+            let gap = (0..n)
+                .map(|i| (l.points[(i + 1) % n] - l.points[i]).norm())
+                .fold(0.0, f64::max);
+            println!(
+                "  loop {:3} depth {} points {:5} diameter {:.3} largest gap {:.1} spacings",
+                l.id,
+                l.depth,
+                n,
+                l.diameter,
+                gap / settings.spacing
+            );
+        }
+        kept += c.loops.len();
+        dropped += c.diagnostics.unresolved;
+        let dir = std::path::Path::new("output/dev");
+        std::fs::create_dir_all(dir)?;
+        let path = dir.join(format!("cle_{kappa}_{eps}_{seed}.png"));
+        LoopFigure {
+            title: format!("CLE_κ configuration (experimental), κ = {kappa}"),
+            caption: vec![format!(
+                "seed {seed}, ε = {eps}, spacing {:.4}; {} loops of diameter ≥ ε kept, {} dropped \
+                 for a gap longer than four spacings",
+                settings.spacing,
+                c.loops.len(),
+                c.diagnostics.unresolved
+            )],
+            loops: c
+                .loops
+                .iter()
+                .map(|l| DrawnLoop {
+                    points: l.points.iter().map(|z| (z.re, z.im)).collect(),
+                    depth: l.depth,
+                    highlighted: false,
+                })
+                .collect(),
+            marked: Vec::new(),
+            style: LoopStyle::Outline,
+        }
+        .draw(&path)?;
+        println!("  figure: {}", path.display());
+    }
+    if args.len() > 3 {
+        println!("total: {kept} loops kept, {dropped} dropped");
+    }
+    Ok(())
+}
