@@ -12,10 +12,17 @@
 
 use sleek::loops::{LoopSampler, LoopSettings};
 use sleek::plot_loops::{DrawnLoop, LoopFigure, LoopStyle};
+use std::io::Write;
 use std::time::Instant;
 
 fn main() {
     if let Err(e) = run() {
+        // A closed pipe (`| head`) ends the run quietly.
+        if let Some(io) = e.downcast_ref::<std::io::Error>() {
+            if io.kind() == std::io::ErrorKind::BrokenPipe {
+                return;
+            }
+        }
         eprintln!("error: {e}");
         std::process::exit(2);
     }
@@ -35,6 +42,7 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
     let settings = LoopSettings::defaults(eps);
     settings.validate()?;
     let sampler = LoopSampler::new(kappa, settings)?;
+    let mut out = std::io::stdout().lock();
     let (mut kept, mut dropped) = (0usize, 0u64);
     for s in &args[2..] {
         let seed: u64 = s
@@ -43,25 +51,27 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
         let t = Instant::now();
         let c = sampler.sample(seed, 0);
         let secs = t.elapsed().as_secs_f64();
-        println!(
+        writeln!(
+            out,
             "seed {seed}: {:.1} s, {} loops kept, {:?}",
             secs,
             c.loops.len(),
             c.diagnostics
-        );
+        )?;
         for l in &c.loops {
             let n = l.points.len();
             let gap = (0..n)
                 .map(|i| (l.points[(i + 1) % n] - l.points[i]).norm())
                 .fold(0.0, f64::max);
-            println!(
+            writeln!(
+                out,
                 "  loop {:3} depth {} points {:5} diameter {:.3} largest gap {:.1} spacings",
                 l.id,
                 l.depth,
                 n,
                 l.diameter,
                 gap / settings.spacing
-            );
+            )?;
         }
         kept += c.loops.len();
         dropped += c.diagnostics.unresolved;
@@ -90,10 +100,10 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
             style: LoopStyle::Outline,
         }
         .draw(&path)?;
-        println!("  figure: {}", path.display());
+        writeln!(out, "  figure: {}", path.display())?;
     }
     if args.len() > 3 {
-        println!("total: {kept} loops kept, {dropped} dropped");
+        writeln!(out, "total: {kept} loops kept, {dropped} dropped")?;
     }
     Ok(())
 }

@@ -305,8 +305,6 @@ struct Continuation {
     loop_idx: usize,
     p: Complex64,
     x: Complex64,
-    /// Sign of θ (the side of the force point; always +1 for κ > 4).
-    sign: f64,
 }
 
 #[derive(Debug, Clone)]
@@ -325,8 +323,6 @@ enum PieceEnd {
     Zero,
     Full,
     Cut,
-    /// Still open: continued in a child region.
-    Handed,
 }
 
 #[derive(Debug, Clone)]
@@ -343,8 +339,9 @@ enum ChildKind {
     /// The rest of the domain where the branch was handed on between loops: a fresh
     /// exploration (from the boundary point nearest the region's point).
     Handed,
-    /// The loop of this piece continues in the child, with the sign of θ.
-    Arch(usize, f64),
+    /// The loop of this piece continues in the child (θ > 0: the pocket lies on the arch's
+    /// left).
+    Arch(usize),
 }
 
 #[derive(Debug, Clone)]
@@ -579,7 +576,6 @@ impl LoopSampler {
                     l.complete = true;
                     l.by_segment = true;
                 }
-                PieceEnd::Handed => {}
             }
         }
         for &i in &o.orphan_arches {
@@ -609,7 +605,7 @@ impl LoopSampler {
                     cont: None,
                     candidates: cands.clone(),
                 }),
-                ChildKind::Arch(i, sign) => {
+                ChildKind::Arch(i) => {
                     let piece = &o.pieces[i];
                     let x = *piece.points.last().unwrap_or(&piece.start);
                     let loop_idx = global[i];
@@ -620,12 +616,7 @@ impl LoopSampler {
                         centre: ch.centre,
                         depth: r.depth,
                         parent: r.parent,
-                        cont: Some(Continuation {
-                            loop_idx,
-                            p,
-                            x,
-                            sign,
-                        }),
+                        cont: Some(Continuation { loop_idx, p, x }),
                         candidates: Vec::new(),
                     });
                 }
@@ -666,12 +657,7 @@ impl LoopSampler {
             (Some(c), Some(poly)) => {
                 let ap = frame.to_disk(nearest_vertex(poly, c.p)).arg();
                 let ax = frame.to_disk(nearest_vertex(poly, c.x)).arg();
-                let th = if c.sign > 0.0 {
-                    (ax - ap).rem_euclid(TWO_PI)
-                } else {
-                    -(ap - ax).rem_euclid(TWO_PI)
-                };
-                let th = th.signum() * th.abs().clamp(1e-9, TWO_PI - 1e-9);
+                let th = (ax - ap).rem_euclid(TWO_PI).clamp(1e-9, TWO_PI - 1e-9);
                 (ax, ap, th, c.x)
             }
             (None, Some(poly)) => {
@@ -684,9 +670,9 @@ impl LoopSampler {
             }
             _ => (0.0, 0.0, 0.0, frame.to_plane(Complex64::new(1.0, 0.0))),
         };
-        // Where the branch is handed on to a child region, if it is: (a point of the child,
-        // whether a loop is in progress).
-        let mut handed: Option<(Complex64, bool)> = None;
+        // Where the branch is handed on to a child region (between excursions), if it is: a
+        // point of the child.
+        let mut handed: Option<Complex64> = None;
         // The raster of the region; during the exploration a blocked cell holds the step that
         // blocked it (−1: outside the region).
         let mut ras = match &r.polygon {
@@ -735,7 +721,7 @@ impl LoopSampler {
                         wants_hand = true;
                         continue;
                     }
-                    handed = Some((best.2, false));
+                    handed = Some(best.2);
                     break;
                 }
                 if steps >= s.max_steps_per_region {
@@ -850,7 +836,7 @@ impl LoopSampler {
                     if wants_hand {
                         let best = deepest_left(&frame, &chain);
                         if best.0 > 2.0 * cell {
-                            handed = Some((best.2, false));
+                            handed = Some(best.2);
                         }
                         break;
                     }
@@ -888,17 +874,9 @@ impl LoopSampler {
         ras.seal();
         let comps = ras.components();
         let mut arch_of: Vec<Option<ChildKind>> = vec![None; comps.len()];
-        if let Some((z, in_loop)) = handed {
-            let last = pieces.len() - 1;
+        if let Some(z) = handed {
             match ras.label_at(z) {
-                Some(k) => {
-                    arch_of[k] = Some(if in_loop {
-                        pieces[last].end = PieceEnd::Handed;
-                        ChildKind::Arch(last, if theta < 0.0 { -1.0 } else { 1.0 })
-                    } else {
-                        ChildKind::Handed
-                    });
-                }
+                Some(k) => arch_of[k] = Some(ChildKind::Handed),
                 None => out.diag.closed_early += 1,
             }
         }
@@ -923,7 +901,7 @@ impl LoopSampler {
                     }
                 }
                 match found {
-                    Some(k) if arch_of[k].is_none() => arch_of[k] = Some(ChildKind::Arch(i, 1.0)),
+                    Some(k) if arch_of[k].is_none() => arch_of[k] = Some(ChildKind::Arch(i)),
                     _ => out.orphan_arches.push(i),
                 }
             }
@@ -939,7 +917,7 @@ impl LoopSampler {
                     }
                     ChildKind::Handed
                 }
-                Some(ChildKind::Arch(i, sign)) => {
+                Some(ChildKind::Arch(i)) => {
                     let piece = &pieces[i];
                     let mut lo = c.lo(&ras);
                     let mut hi = c.hi(&ras);
@@ -952,7 +930,7 @@ impl LoopSampler {
                         out.orphan_arches.push(i);
                         continue;
                     }
-                    ChildKind::Arch(i, sign)
+                    ChildKind::Arch(i)
                 }
                 Some(ChildKind::Fresh) | None => {
                     // No loop of diameter ε is looked for in a region narrower than ε/5 (or
@@ -969,7 +947,7 @@ impl LoopSampler {
             let polygon = ras.contour(c.label);
             if polygon.len() < 4 {
                 out.diag.small_regions += 1;
-                if let ChildKind::Arch(i, _) = kind {
+                if let ChildKind::Arch(i) = kind {
                     out.orphan_arches.push(i);
                 }
                 continue;
