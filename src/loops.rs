@@ -61,7 +61,9 @@
 //!   around a point has E[−log CR] ≈ 22 at κ = 3 by the SSW law, so large empty stretches of
 //!   gasket are expected).
 //! * κ = 6, ε = 0.1, seed 1: 201 regions, 115 968 steps, 39 s, 17 MB; 13 kept, 38 unresolved.
-//!   Over seeds 1–6 at ε = 0.15: 34 kept, 105 unresolved. Drawn with the unresolved loops, the
+//!   Over seeds 1–6 at ε = 0.15: 34 kept, 105 unresolved; 39 kept, 87 unresolved since a
+//!   κ > 4 loop may close (θ → 2π) only back at its start, not wherever the tip touches old
+//!   trace (one-seed figures above are from before that change). Drawn with the unresolved loops, the
 //!   configuration shows the large touching loops of CLE₆, but the large loops are the ones
 //!   dropped: their gap is the segment that closes them (10–60 spacings), left when the pocket
 //!   under one of their arches is not found on the raster (24 of 39 arches wider than 0.05 in
@@ -739,14 +741,21 @@ impl LoopSampler {
             let a_abs = theta.abs();
             let d_end = a_abs.min(TWO_PI - a_abs).max(0.0);
             // Within a few slits' footprints of the end the push is not resolved further,
-            // but only where the plane allows the end: for κ ≤ 4 the loop must have come back to
-            // its start, for κ > 4 the tip must touch what was there before (the region's
-            // boundary or the trace of 20 steps ago). Until then θ's approach to the end is
-            // resolved (steps of d²/16κ), so the end is not reached early.
-            let allowed = if big {
-                ras.near_old(prev, steps.saturating_sub(20) as i32 + 1)
+            // but only where the plane allows the end: a loop closes (θ → ±2π, and for κ ≤ 4
+            // also θ → 0) where it started — the start of this excursion, or for a loop
+            // continued in a pocket its first point; a κ > 4 arch lands (θ → 0) where the tip
+            // touches what was there before (the region's boundary or the trace of 20 steps
+            // ago). Until then θ's approach to the end is resolved (steps of d²/16κ), so the
+            // end is not reached early.
+            let loop_start = match (r.cont, pieces.len()) {
+                (Some(c), 1) => c.p,
+                _ => pieces.last().expect("piece").start,
+            };
+            let closes = !big || a_abs > PI;
+            let allowed = if closes {
+                (prev - loop_start).norm() <= 2.0 * s.spacing
             } else {
-                (prev - pieces.last().expect("piece").start).norm() <= 2.0 * s.spacing
+                ras.near_old(prev, steps.saturating_sub(20) as i32 + 1)
             };
             let d = if allowed {
                 d_end.max(4.0 * (kappa * h_sp).sqrt())
