@@ -395,25 +395,35 @@ mod tests {
         );
     }
 
-    #[test]
-    fn points_of_the_disk_land_inside_a_nonconvex_polygon() {
-        // An L-shaped polygon, clockwise on purpose.
+    /// The L-shaped polygon `[0,2]² ∖ (1,2]²`, `per_edge` vertices per edge, counterclockwise
+    /// or clockwise.
+    fn l_shape(per_edge: usize, ccw: bool) -> Vec<Complex64> {
         let corners = [
             (0.0, 0.0),
-            (0.0, 2.0),
-            (1.0, 2.0),
-            (1.0, 1.0),
-            (2.0, 1.0),
             (2.0, 0.0),
+            (2.0, 1.0),
+            (1.0, 1.0),
+            (1.0, 2.0),
+            (0.0, 2.0),
         ];
         let mut v = Vec::new();
         for k in 0..corners.len() {
             let a = Complex64::new(corners[k].0, corners[k].1);
             let b = Complex64::new(corners[(k + 1) % 6].0, corners[(k + 1) % 6].1);
-            for j in 0..100 {
-                v.push(a + (b - a) * (j as f64 / 100.0));
+            for j in 0..per_edge {
+                v.push(a + (b - a) * (j as f64 / per_edge as f64));
             }
         }
+        if !ccw {
+            v.reverse();
+        }
+        v
+    }
+
+    #[test]
+    fn points_of_the_disk_land_inside_a_nonconvex_polygon() {
+        // Clockwise on purpose.
+        let v = l_shape(100, false);
         let c = Complex64::new(0.5, 0.5);
         let z = GeodesicZipper::new(&v, c).unwrap();
         assert!(z.to_disk(c).norm() < 1e-12);
@@ -433,22 +443,7 @@ mod tests {
     fn boundary_vertices_are_reached_from_just_inside() {
         // The boundary correspondence: the image angle of each vertex, approached from inside
         // D, must lead back to that vertex (an exploration starts its curve there).
-        let corners = [
-            (0.0, 0.0),
-            (2.0, 0.0),
-            (2.0, 1.0),
-            (1.0, 1.0),
-            (1.0, 2.0),
-            (0.0, 2.0),
-        ];
-        let mut v = Vec::new();
-        for k in 0..corners.len() {
-            let a = Complex64::new(corners[k].0, corners[k].1);
-            let b = Complex64::new(corners[(k + 1) % 6].0, corners[(k + 1) % 6].1);
-            for j in 0..40 {
-                v.push(a + (b - a) * (j as f64 / 40.0));
-            }
-        }
+        let v = l_shape(40, true);
         let z = GeodesicZipper::new(&v, Complex64::new(0.4, 0.6)).unwrap();
         // Worst distance from a vertex to the image of its angle at 1 − e; the tolerances are
         // the distance that 1 − e itself stands for (|F'| ≤ about 10 on this polygon, larger at
