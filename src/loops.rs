@@ -63,14 +63,17 @@
 //! * κ = 6, ε = 0.1, seed 1: 201 regions, 115 968 steps, 39 s, 17 MB; 13 kept, 38 unresolved.
 //!   Over seeds 1–6 at ε = 0.15: 34 kept, 105 unresolved; 39 kept, 87 unresolved since a
 //!   κ > 4 loop may close (θ → 2π) only back at its start, not wherever the tip touches old
-//!   trace (one-seed figures above are from before that change). Drawn with the unresolved loops, the
+//!   trace (seed 1 at ε = 0.1 then gives 15 kept, 19 unresolved, 41 s; the other one-seed
+//!   figures are from before that change). Drawn with the unresolved loops, the
 //!   configuration shows the large touching loops of CLE₆, but the large loops are the ones
 //!   dropped: their gap is the segment that closes them (10–60 spacings), left when the pocket
 //!   under one of their arches is not found on the raster (24 of 39 arches wider than 0.05 in
 //!   one configuration) or the branch hits the step budget.
-//! * Three changes to the pocket search were tried and measured worse or no better on the
+//! * Four changes to the pocket search were tried and measured worse or no better on the
 //!   six-seed count (searching the whole arch at 2–4.5 cells; sealing the landing point to
-//!   the old trace; taking the component that reaches both ends of the arch). Single-seed
+//!   the old trace; taking the component that reaches both ends of the arch; looking on the
+//!   arch's right instead of its left, 36 kept and 101 unresolved — so the side is not the
+//!   cause). Single-seed
 //!   comparisons are useless here: rounding alone moves one configuration from 22 to 38
 //!   unresolved loops.
 //! * Fixed in the geodesic zipper (they caused most jumps before): boundary vertices were mapped
@@ -124,7 +127,8 @@ pub struct LoopSettings {
     pub h_min: f64,
     /// Steps near an end of θ are at most `d²/(end_resolution·κ)` (default 16).
     pub end_resolution: f64,
-    /// Step budget of one region (default 2·10⁶); a region that uses it up is closed early.
+    /// Steps of one region after which its branch is handed on at the end of the excursion in
+    /// progress (default 2000); a region stops at four times this, closing its loop early.
     pub max_steps_per_region: u64,
     /// Region budget of one configuration (default 10⁶).
     pub max_regions: usize,
