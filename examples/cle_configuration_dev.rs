@@ -1,12 +1,12 @@
 //! Development harness for the experimental CLE_κ configuration sampler (`sleek::loops`), which
-//! is not in the command line yet: samples configurations, prints their counters and the gap of
-//! each kept loop, and draws the last one.
+//! is not in the command line yet: samples configurations, prints their counters and every loop
+//! found (closed or open), and draws the closed ones.
 //!
 //! ```text
 //! cargo run --release --example cle_configuration_dev -- KAPPA MIN_SIZE SEED [SEED…]
 //! ```
 //! The figure goes to `output/dev/cle_KAPPA_MIN_SIZE_SEED.png`. With several seeds a last line
-//! sums the loops kept and dropped (compare changes on several seeds: one configuration is
+//! sums the loops closed and open (compare changes on several seeds: one configuration is
 //! chaotic in rounding). The configurations are not yet right (see the module docs of
 //! `sleek::loops`); this is a tool for working on them, not a result.
 
@@ -59,37 +59,38 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
             c.diagnostics
         )?;
         for l in &c.loops {
-            let n = l.points.len();
-            let gap = (0..n)
-                .map(|i| (l.points[(i + 1) % n] - l.points[i]).norm())
-                .fold(0.0, f64::max);
             writeln!(
                 out,
-                "  loop {:3} depth {} points {:5} diameter {:.3} largest gap {:.1} spacings",
+                "  loop {:3} depth {} parent {:?} points {:5} diameter {:.3} largest gap {:.1} \
+                 spacings, closed {}, inside {}, log CR {:.2}",
                 l.id,
                 l.depth,
-                n,
+                l.parent,
+                l.points.len(),
                 l.diameter,
-                gap / settings.spacing
+                l.largest_gap / settings.spacing,
+                l.closed,
+                l.points_inside,
+                l.log_cr
             )?;
         }
-        kept += c.loops.len();
-        dropped += c.diagnostics.unresolved;
+        kept += c.loops.iter().filter(|l| l.closed).count();
+        dropped += c.diagnostics.open_loops;
         let dir = std::path::Path::new("output/dev");
         std::fs::create_dir_all(dir)?;
         let path = dir.join(format!("cle_{kappa}_{eps}_{seed}.png"));
         LoopFigure {
             title: format!("CLE_κ configuration (experimental), κ = {kappa}"),
             caption: vec![format!(
-                "seed {seed}, ε = {eps}, spacing {:.4}; {} loops of diameter ≥ ε kept, {} dropped \
-                 for a gap longer than four spacings",
+                "seed {seed}, ε = {eps}, spacing {:.4}; {} loops of diameter ≥ ε closed, {} open",
                 settings.spacing,
-                c.loops.len(),
-                c.diagnostics.unresolved
+                c.loops.len() as u64 - c.diagnostics.open_loops,
+                c.diagnostics.open_loops
             )],
             loops: c
                 .loops
                 .iter()
+                .filter(|l| l.closed)
                 .map(|l| DrawnLoop {
                     points: l.points.iter().map(|z| (z.re, z.im)).collect(),
                     depth: l.depth,
@@ -103,7 +104,7 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
         writeln!(out, "  figure: {}", path.display())?;
     }
     if args.len() > 3 {
-        writeln!(out, "total: {kept} loops kept, {dropped} dropped")?;
+        writeln!(out, "total: {kept} loops closed, {dropped} open")?;
     }
     Ok(())
 }

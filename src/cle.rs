@@ -384,14 +384,63 @@ impl Tracked {
     }
 }
 
+/// Hooks through which an exploration records its own geometry: every change of a branch's
+/// frame as a forward map, the end visits of θ, splits and loop closures. `()` records nothing
+/// and is what the statistics of [`CleExplorer`] use; [`crate::loops`] draws loops with it.
+pub(crate) trait Recorder: Sized {
+    /// Whether every step must be taken as a map (this turns off the one-point shortcut, which
+    /// carries no geometry).
+    const TRACES: bool;
+    /// The branch frame changed by the forward map `m`; `tip_before` is the tip in the frame
+    /// before it.
+    fn map(&mut self, _m: DiskMap, _tip_before: Complex64) {}
+    /// A step of radial time `h` was taken (its map was just recorded), θ visited `visit`
+    /// and is now `theta`.
+    fn stepped(&mut self, _visit: EndVisit, _h: f64, _theta: f64) {}
+    /// The next step is the second half of one whose first half visited an end.
+    fn half_step(&mut self) {}
+    /// The longest next step the recorder wants (its resolution of the trace).
+    fn max_h(&self) -> f64 {
+        f64::INFINITY
+    }
+    /// Another point becomes the driver when its Poisson kernel at the tip is this many times
+    /// the driver's.
+    fn switch_ratio(&self) -> f64 {
+        SWITCH_RATIO
+    }
+    /// Whether the branch should stop now (its trace can no longer be resolved).
+    fn give_up(&self) -> bool {
+        false
+    }
+    /// Points with `log CR(D_t, z)` below this are no longer explored.
+    fn min_log_cr(&self) -> f64 {
+        f64::NEG_INFINITY
+    }
+    /// The recorder of a branch split off now, with identifier `branch`; its path is the
+    /// current one, without the last step when `before_last_step`.
+    fn fork(&mut self, before_last_step: bool, branch: u64) -> Self;
+    /// A loop with identifier `loop_id` closed around the points `inside` (`(point, log CR)`),
+    /// the first of them the driver.
+    fn closed(&mut self, _loop_id: u64, _inside: &[(usize, f64)]) {}
+    /// The branch has finished.
+    fn finish(self) {}
+}
+
+impl Recorder for () {
+    const TRACES: bool = false;
+    fn fork(&mut self, _before_last_step: bool, _branch: u64) -> Self {}
+}
+
 /// One branch of the exploration tree: force point at 1, tip at `e^{iθ}`, driver at 0.
-pub(crate) struct Branch {
+pub(crate) struct Branch<R: Recorder = ()> {
     pub(crate) theta: f64,
     pub(crate) pts: Vec<Tracked>,
     pub(crate) driver: usize,
     pub(crate) rng: ChaCha8Rng,
     /// The points before the current step (reused buffer, so the hot loop does not allocate).
     pub(crate) before: Vec<Tracked>,
+    /// What records the branch's geometry.
+    pub(crate) rec: R,
 }
 
 /// Harmonic measure, seen from `w`, of the boundary arc from the force point (angle 0) to the
@@ -407,11 +456,12 @@ pub(crate) fn arc_measure(w: Complex64, theta: f64) -> f64 {
     }
 }
 
-impl Branch {
+impl<R: Recorder> Branch<R> {
     /// Move to the frame of point `k` (Möbius map sending `w_k` to 0, rotated so that the force
     /// point is at 1) and make it the driver; θ becomes the point's own angle. Returns the frame
     /// change as a forward map (the identity when `k` is already at 0).
     pub(crate) fn renormalise(&mut self, k: usize) -> DiskMap {
+        let theta_before = self.theta;
         let c = self.pts[k].w;
         let one = Complex64::new(1.0, 0.0);
         let tip = Complex64::from_polar(1.0, self.theta);
@@ -440,7 +490,9 @@ impl Branch {
             -(-b).rem_euclid(TWO_PI)
         };
         self.driver = k;
-        DiskMap::Mobius { c, rot }
+        let m = DiskMap::Mobius { c, rot };
+        self.rec.map(m, Complex64::from_polar(1.0, theta_before));
+        m
     }
 
     /// Apply a step (its driving angle in the frame, force point at angle 0) to every point,
@@ -463,7 +515,13 @@ impl Branch {
             p.w *= rot;
         }
         self.pts[driver].w = Complex64::new(0.0, 0.0);
+        let tip_before = Complex64::from_polar(1.0, self.theta);
         self.theta = theta;
+        if R::TRACES {
+            if let Some(m) = step.as_disk_map(rot) {
+                self.rec.map(m, tip_before);
+            }
+        }
         rot
     }
 
@@ -512,11 +570,13 @@ impl Branch {
         for p in self.pts.iter_mut() {
             p.w *= rot;
         }
-        self.theta = 0.0;
-        DiskMap::Mobius {
+        let m = DiskMap::Mobius {
             c: Complex64::new(0.0, 0.0),
             rot,
-        }
+        };
+        self.rec.map(m, Complex64::from_polar(1.0, self.theta));
+        self.theta = 0.0;
+        m
     }
 }
 
@@ -639,6 +699,18 @@ impl CleExplorer {
     /// same run (used to explore several points in independent configurations). Part 0 is
     /// [`CleExplorer::sample`].
     pub fn sample_part(&self, seed: u64, index: u64, part: u32) -> CleSample {
+        self.sample_recorded(seed, index, part, ())
+    }
+
+    /// [`CleExplorer::sample_part`] with a recorder of the geometry on the root branch (the
+    /// branches split off get theirs from [`Recorder::fork`]).
+    pub(crate) fn sample_recorded<R: Recorder>(
+        &self,
+        seed: u64,
+        index: u64,
+        part: u32,
+        rec: R,
+    ) -> CleSample {
         let base = (part as u64) << 40;
         let mut records: Vec<PointRecord> =
             self.points.iter().map(|&z| PointRecord::new(z)).collect();
@@ -656,6 +728,7 @@ impl CleExplorer {
             driver: 0,
             rng: rng::substream(seed, Tag::Cle, index, base),
             before: Vec::new(),
+            rec,
         };
         let k = root.fastest_any();
         root.renormalise(k);
@@ -670,6 +743,7 @@ impl CleExplorer {
                 seed,
                 index,
             );
+            br.rec.finish();
             // Push in reverse so branches run in creation order (deterministic either way).
             for b in spawned.into_iter().rev() {
                 stack.push(b);
@@ -685,22 +759,26 @@ impl CleExplorer {
 
     /// Run a branch until its points are done or it splits; returns the branches split off.
     #[allow(clippy::too_many_arguments)]
-    fn run_branch(
+    fn run_branch<R: Recorder>(
         &self,
-        br: &mut Branch,
+        br: &mut Branch<R>,
         records: &mut [PointRecord],
         diag: &mut SampleDiagnostics,
         next_loop: &mut u64,
         next_branch: &mut u64,
         seed: u64,
         index: u64,
-    ) -> Vec<Branch> {
+    ) -> Vec<Branch<R>> {
         let s = &self.settings;
         let kappa = self.process.kappa;
         let mut spawned = Vec::new();
         let mut since_check = 0u32;
         loop {
             if br.pts.is_empty() {
+                return spawned;
+            }
+            if R::TRACES && br.rec.give_up() {
+                br.pts.clear();
                 return spawned;
             }
             if diag.steps >= s.max_steps {
@@ -715,13 +793,14 @@ impl CleExplorer {
             if since_check >= 64 {
                 since_check = 0;
                 let before = br.pts.len();
+                let floor = br.rec.min_log_cr();
                 br.pts.retain(|p| {
                     let t = records[p.id].log_cr_disk - p.log_cr();
                     if t > s.max_time {
                         records[p.id].censored = true;
                         false
                     } else {
-                        true
+                        p.log_cr().is_nan() || p.log_cr() >= floor
                     }
                 });
                 if br.pts.is_empty() {
@@ -732,7 +811,7 @@ impl CleExplorer {
                     br.renormalise(k);
                 }
             }
-            if br.pts.len() == 1 {
+            if !R::TRACES && br.pts.len() == 1 {
                 // One point: no geometry to carry, only its own clock and angle (the same steps
                 // and random numbers as the general path below).
                 let st = self.process.step(br.theta, s.h_max, &mut br.rng);
@@ -759,13 +838,13 @@ impl CleExplorer {
                 continue;
             }
             let (k, pk) = br.fastest();
-            if k != br.driver && pk > SWITCH_RATIO {
+            if k != br.driver && pk > br.rec.switch_ratio() {
                 br.renormalise(k);
                 diag.switches += 1;
             }
             // Step length: every non-driving point at least separation·√(κh) from the tip.
             let tip = Complex64::from_polar(1.0, br.theta);
-            let mut h = s.h_max;
+            let mut h = s.h_max.min(br.rec.max_h());
             for (j, p) in br.pts.iter().enumerate() {
                 if j != br.driver {
                     let dist = (tip - p.w).norm() / s.separation;
@@ -780,11 +859,34 @@ impl CleExplorer {
             br.before.clear();
             br.before.extend_from_slice(&br.pts);
             let theta_before = br.theta;
-            let st = self.process.step(br.theta, h, &mut br.rng);
+            let mut st = self.process.step(br.theta, h, &mut br.rng);
+            let visited = st.visit != EndVisit::None;
+            if R::TRACES && visited {
+                // For geometry, the visit of an end must close what it closes in the chain too
+                // (a loop, or the pocket under an arch), not leave it open by the part of the
+                // step after the visit. A visit of 2π ends the step there: its slit grows from
+                // the force point. A visit of 0 splits the step in two halves, the first with
+                // its slit at the force point, the second from there to the new angle. (At the
+                // step's resolution this is the same process; the statistics keep the plain
+                // scheme.)
+                if st.visit == EndVisit::Full {
+                    st.theta = TWO_PI.copysign(st.theta);
+                } else {
+                    h *= 0.5;
+                    let first = RadialStep::new(0.0, h);
+                    let side = if st.theta >= 0.0 { -1.0 } else { 1.0 };
+                    br.advance(&first, side, 0.0);
+                    br.rec.stepped(EndVisit::Zero, h, 0.0);
+                    br.rec.half_step();
+                    diag.steps += 1;
+                    st.visit = EndVisit::None;
+                }
+            }
             let step = RadialStep::new(st.theta, h);
             let driver = br.driver;
             let side = if st.theta >= 0.0 { -1.0 } else { 1.0 };
             br.advance(&step, side, st.theta);
+            br.rec.stepped(st.visit, h, br.theta);
             diag.steps += 1;
 
             // Pinched points: 1 − |w| is the pseudo-hyperbolic closeness of a point to the
@@ -794,8 +896,33 @@ impl CleExplorer {
             // their own angle then decides, through the exact scheme, whether the region they
             // are in is a loop interior (θ ≈ 2π: the next step closes it) or not.
             let (mut pinched, broken) = br.leaving(s.pinch);
+            let mut squeezed = Vec::new();
+            if R::TRACES {
+                // For geometry a split must be a disconnection: a branch that leaves early
+                // would trace a future of the region that its parent also traces, differently.
+                // Points are cut off at a visit of an end (a loop or an arch closed) or, for
+                // κ > 4, by a swallowing, which squeezes them onto the circle within one step;
+                // points that the flow squeezes slowly (far from the tip, seen from a driver
+                // deep in the domain) stay, until they are below the precision and are dropped.
+                // (Not sufficient yet: far points squeezed below `pinch` still leave at the
+                // next visit, early; see the status in `crate::loops`.)
+                let swallows = !self.process.is_symmetric();
+                pinched.retain(|&j| {
+                    let after = 1.0 - br.pts[j].w.norm();
+                    let before = 1.0 - br.before[j].w.norm();
+                    if visited || (swallows && before > SUDDEN * after) {
+                        true
+                    } else {
+                        if after < SQUEEZED_OUT {
+                            squeezed.push(j);
+                        }
+                        false
+                    }
+                });
+            }
             let mut leaving: Vec<usize> = pinched.clone();
             leaving.extend(&broken);
+            leaving.extend(&squeezed);
             let mut inside = Vec::new();
             if st.visit == EndVisit::Full {
                 // A loop closes around the driver and around every other point that sees the
@@ -813,20 +940,37 @@ impl CleExplorer {
                 diag.pinched += broken.len() as u64;
                 let pts: Vec<Tracked> = broken.iter().map(|&j| br.before[j]).collect();
                 for g in group_connected(pts, s.pinch) {
-                    spawned.push(self.split(theta_before, g, seed, index, next_branch));
+                    let rec = br.rec.fork(true, *next_branch);
+                    spawned.push(self.split(theta_before, g, seed, index, next_branch, rec));
                 }
             }
             if !pinched.is_empty() {
                 diag.pinched += pinched.len() as u64;
                 let pts: Vec<Tracked> = pinched.iter().map(|&j| br.pts[j]).collect();
                 for g in group_connected(pts, s.pinch) {
-                    spawned.push(self.split(br.theta, g, seed, index, next_branch));
+                    let rec = br.rec.fork(false, *next_branch);
+                    let mut child = self.split(br.theta, g, seed, index, next_branch, rec);
+                    if R::TRACES && visited {
+                        // The step closed a loop or landed an arch mid-way and its slit went on
+                        // past that point; the points it cut off start where the tip met the
+                        // force point, not where the slit ended, when their own angle says so.
+                        child.snap_to_end();
+                    }
+                    spawned.push(child);
                 }
             }
             if st.visit == EndVisit::Full {
                 let id = *next_loop;
                 *next_loop += 1;
                 let was_driver = br.pts[driver].id;
+                if R::TRACES {
+                    // The driver first, then the others inside.
+                    let closed: Vec<(usize, f64)> = std::iter::once(driver)
+                        .chain(inside.iter().copied().filter(|&j| j != driver))
+                        .map(|j| (br.pts[j].id, br.pts[j].log_cr()))
+                        .collect();
+                    br.rec.closed(id, &closed);
+                }
                 let mut remaining = Vec::new();
                 for &j in &inside {
                     let p = br.pts[j];
@@ -868,14 +1012,15 @@ impl CleExplorer {
 
     /// A new branch for points that left a branch, in the inherited frame (tip at angle
     /// `theta`); the fastest of them drives it.
-    fn split(
+    fn split<R: Recorder>(
         &self,
         theta: f64,
         pts: Vec<Tracked>,
         seed: u64,
         index: u64,
         next_branch: &mut u64,
-    ) -> Branch {
+        rec: R,
+    ) -> Branch<R> {
         let id = *next_branch;
         *next_branch += 1;
         let mut b = Branch {
@@ -884,6 +1029,7 @@ impl CleExplorer {
             driver: 0,
             rng: rng::substream(seed, Tag::Cle, index, id),
             before: Vec::new(),
+            rec,
         };
         let k = b.fastest_any();
         b.renormalise(k);
@@ -920,7 +1066,26 @@ pub(crate) fn group_connected(pts: Vec<Tracked>, pinch: f64) -> Vec<Vec<Tracked>
     groups.into_iter().map(|g| g.1).collect()
 }
 
-impl Branch {
+/// A point whose distance to the circle shrinks by more than this factor in one step was cut
+/// off (swallowed), not merely squeezed (geometry only).
+const SUDDEN: f64 = 1e3;
+/// Points squeezed closer than this to the circle are dropped (geometry only).
+const SQUEEZED_OUT: f64 = 1e-14;
+
+/// A branch's angle within this of an end is put at the end by [`Branch::snap_to_end`].
+const SNAP: f64 = 0.3;
+
+impl<R: Recorder> Branch<R> {
+    /// Put θ at the nearer end (0 or ±2π) when it is within [`SNAP`] of it.
+    pub(crate) fn snap_to_end(&mut self) {
+        let a = self.theta.abs();
+        if a < SNAP {
+            self.theta = 0.0;
+        } else if a > TWO_PI - SNAP {
+            self.theta = TWO_PI.copysign(self.theta);
+        }
+    }
+
     /// The point with the largest Poisson kernel at the tip, the driver included (used when
     /// the current driver is not a member, e.g. right after a split).
     pub(crate) fn fastest_any(&self) -> usize {

@@ -33,7 +33,7 @@
 
 use crate::radial::{RadialStep, TiltedRadialStep};
 use num_complex::Complex64;
-use std::f64::consts::TAU;
+use std::f64::consts::{PI, TAU};
 
 /// One map of a disk chain, given by its forward direction (frame before → frame after).
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -61,6 +61,86 @@ pub enum DiskMap {
         /// Rotation applied after.
         rot: Complex64,
     },
+    /// A radial step taken in another frame and read in this one: `u ↦ E(rot · G(D(u)))`, with
+    /// `D` the automorphism from this frame to the step's frame, `G` the step and
+    /// `E(w) = (w − w0)/(1 − w̄0 w)` the automorphism that puts the image `w0 = rot·G(D(0))`
+    /// of this frame's centre back at 0. So the map fixes 0, and its slit is as small as the
+    /// step looks from this frame's centre (which is what keeps block series usable when the
+    /// steps are taken in frames centred near the tip).
+    Conjugated {
+        /// The step (in its own frame).
+        step: RadialStep,
+        /// Rotation applied after the step.
+        rot: Complex64,
+        /// `D`, from this frame to the step's frame.
+        d: Mobius,
+        /// `w0 = rot · G(D(0))`.
+        w0: Complex64,
+    },
+}
+
+/// A disk automorphism `w ↦ rot · (w − c)/(1 − c̄ w)` (|c| < 1, |rot| = 1).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Mobius {
+    /// The point sent to 0.
+    pub c: Complex64,
+    /// Rotation applied after.
+    pub rot: Complex64,
+}
+
+impl Mobius {
+    /// The identity.
+    pub fn identity() -> Self {
+        Mobius {
+            c: Complex64::new(0.0, 0.0),
+            rot: Complex64::new(1.0, 0.0),
+        }
+    }
+
+    /// The map at `w` (for `|w| ≤ 1`).
+    #[inline]
+    pub fn apply(&self, w: Complex64) -> Complex64 {
+        self.rot * (w - self.c) / (1.0 - self.c.conj() * w)
+    }
+
+    /// The inverse map at `z`.
+    #[inline]
+    pub fn invert(&self, z: Complex64) -> Complex64 {
+        let u = z * self.rot.conj();
+        (u + self.c) / (1.0 + self.c.conj() * u)
+    }
+
+    /// The automorphism equal to `u ↦ f(u)` for a disk automorphism `f` given by its values:
+    /// `c = f⁻¹(0)` and `f(1)`.
+    fn from_values(c: Complex64, f_at_one: Complex64) -> Self {
+        let one = Complex64::new(1.0, 0.0);
+        // f(1) = rot·(1 − c)/(1 − c̄), so rot = f(1)·(1 − c̄)/(1 − c).
+        let rot = f_at_one * (one - c.conj()) / (one - c);
+        Mobius {
+            c,
+            rot: rot / rot.norm(),
+        }
+    }
+
+    /// `self ∘ first` (first `first`, then `self`).
+    pub fn after(&self, first: &Mobius) -> Mobius {
+        let c = first.invert(self.c);
+        let f1 = self.apply(first.apply(Complex64::new(1.0, 0.0)));
+        Mobius::from_values(c, f1)
+    }
+
+    /// The inverse automorphism.
+    pub fn inverse(&self) -> Mobius {
+        // The inverse sends rot·(−c)… : its zero is the image of 0, i.e. apply(0).
+        let c = self.apply(Complex64::new(0.0, 0.0));
+        let f1 = self.invert(Complex64::new(1.0, 0.0));
+        Mobius::from_values(c, f1)
+    }
+
+    /// `|f'(w)|` on the circle or inside: `(1 − |c|²)/|1 − c̄ w|²`.
+    pub fn stretch(&self, w: Complex64) -> f64 {
+        (1.0 - self.c.norm_sqr()) / (1.0 - self.c.conj() * w).norm_sqr()
+    }
 }
 
 impl DiskMap {
@@ -74,6 +154,10 @@ impl DiskMap {
                 let u = z * rot.conj();
                 (u + c) / (1.0 + c.conj() * u)
             }
+            DiskMap::Conjugated { step, rot, d, w0 } => {
+                let v = (z + w0) / (1.0 + w0.conj() * z);
+                d.invert(step.inverse(v * rot.conj()))
+            }
         }
     }
 
@@ -85,6 +169,11 @@ impl DiskMap {
             DiskMap::Mobius { c, rot } => {
                 let u = Complex64::from_polar(1.0, alpha);
                 ((u - c) / (1.0 - c.conj() * u) * rot).arg()
+            }
+            DiskMap::Conjugated { step, rot, d, w0 } => {
+                let a = d.apply(Complex64::from_polar(1.0, alpha)).arg();
+                let g = Complex64::from_polar(1.0, step.forward_boundary_angle(a, 1.0)) * rot;
+                ((g - w0) / (1.0 - w0.conj() * g)).arg()
             }
         }
     }
@@ -112,6 +201,30 @@ impl DiskMap {
                 })
             }
             DiskMap::Mobius { .. } => None,
+            DiskMap::Conjugated { step, rot, w0, .. } => {
+                let s = -(-step.dt).exp_m1() / 4.0;
+                let half = 2.0 * (2.0 * s.sqrt() * (0.5 * step.dt).exp()).atan();
+                let e = |a: f64| {
+                    let g = Complex64::from_polar(1.0, a) * rot;
+                    ((g - w0) / (1.0 - w0.conj() * g)).arg()
+                };
+                let a = e(step.xi - half);
+                let b = e(step.xi + half);
+                let len = (b - a).rem_euclid(TAU);
+                if len > PI {
+                    // The automorphism keeps the orientation, so a long arc is genuine only if
+                    // the step's midpoint falls in its middle; otherwise rounding swapped the
+                    // ends of a tiny one.
+                    let m = (e(step.xi) - a).rem_euclid(TAU);
+                    if !(m > 0.25 * len && m < 0.75 * len) {
+                        return Some(Arc {
+                            start: b,
+                            len: (a - b).rem_euclid(TAU),
+                        });
+                    }
+                }
+                Some(Arc { start: a, len })
+            }
         }
     }
 }
@@ -437,6 +550,7 @@ impl DiskChain {
         match self.maps.get(n)? {
             DiskMap::Step { step, .. } => Some(self.apply_prefix(n, step.tip())),
             DiskMap::Tilted { step, .. } => Some(self.apply_prefix(n, step.tip())),
+            DiskMap::Conjugated { step, d, .. } => Some(self.apply_prefix(n, d.invert(step.tip()))),
             DiskMap::Mobius { .. } => None,
         }
     }
@@ -459,5 +573,109 @@ mod tests {
         let u = a.union(b);
         assert!((u.start - 6.0).abs() < 1e-15);
         assert!((u.len - (0.3 + TAU - 6.0)).abs() < 1e-12);
+    }
+
+    fn c(re: f64, im: f64) -> Complex64 {
+        Complex64::new(re, im)
+    }
+
+    #[test]
+    fn automorphisms_compose_and_invert() {
+        let a = Mobius {
+            c: c(0.3, -0.4),
+            rot: Complex64::from_polar(1.0, 0.7),
+        };
+        let b = Mobius {
+            c: c(-0.5, 0.2),
+            rot: Complex64::from_polar(1.0, -1.1),
+        };
+        let ab = a.after(&b);
+        let ai = a.inverse();
+        for z in [
+            c(0.1, 0.2),
+            c(-0.6, 0.3),
+            c(0.0, 0.0),
+            c(0.0, 0.99),
+            c(0.7, -0.7),
+        ] {
+            assert!((ab.apply(z) - a.apply(b.apply(z))).norm() < 1e-13, "{z}");
+            assert!((ai.apply(a.apply(z)) - z).norm() < 1e-13, "{z}");
+            assert!((a.invert(a.apply(z)) - z).norm() < 1e-13, "{z}");
+        }
+        // |f'| on the circle: (1 − |c|²)/|1 − c̄w|², against a difference quotient.
+        let w = Complex64::from_polar(1.0, 2.0);
+        let e = 1e-6;
+        let num = (a.apply(w * Complex64::from_polar(1.0, e)) - a.apply(w)).norm() / e;
+        assert!((num - a.stretch(w)).abs() < 1e-5 * a.stretch(w));
+    }
+
+    /// The conjugated step read by hand: `u ↦ E(rot·G(D(u)))`.
+    fn conjugated(step: RadialStep, rot: Complex64, d: Mobius) -> (DiskMap, Complex64) {
+        let w0 = rot * step.forward(d.apply(c(0.0, 0.0)));
+        (DiskMap::Conjugated { step, rot, d, w0 }, w0)
+    }
+
+    #[test]
+    fn a_conjugated_step_is_the_step_read_in_another_frame() {
+        let step = RadialStep::new(0.8, 0.01);
+        let rot = Complex64::from_polar(1.0, -0.3);
+        let d = Mobius {
+            c: c(0.5, 0.3),
+            rot: Complex64::from_polar(1.0, 0.4),
+        };
+        let (m, w0) = conjugated(step, rot, d);
+        for u in [c(0.1, 0.2), c(-0.6, 0.3), c(0.2, -0.9), c(-0.3, -0.3)] {
+            let w = rot * step.forward(d.apply(u));
+            let out = (w - w0) / (1.0 - w0.conj() * w);
+            assert!((m.inverse(out) - u).norm() < 1e-12, "{u}");
+        }
+        // It fixes 0, and its arc is where the circle is not sent to the circle.
+        assert!(m.inverse(c(0.0, 0.0)).norm() < 1e-14);
+        let arc = m.arc().expect("a step has an arc");
+        assert!(arc.len > 0.0 && arc.len < 1.0);
+        let mid = Complex64::from_polar(1.0, arc.start + 0.5 * arc.len);
+        assert!(m.inverse(mid).norm() < 1.0 - 1e-3);
+        for a in [
+            arc.start - 0.05,
+            arc.start + arc.len + 0.05,
+            arc.start + 3.0,
+        ] {
+            let r = m.inverse(Complex64::from_polar(1.0, a)).norm();
+            assert!((r - 1.0).abs() < 1e-12, "angle {a}: |F| = {r}");
+        }
+        // The boundary correspondence of the forward map agrees with the inverse.
+        let a = arc.start + arc.len + 0.3;
+        let back = m.inverse(Complex64::from_polar(1.0, a)).arg();
+        let fwd = m.forward_angle(back);
+        assert!(((fwd - a + PI).rem_euclid(TAU) - PI).abs() < 1e-10);
+    }
+
+    #[test]
+    fn chains_of_conjugated_steps_use_their_series_and_agree_with_direct_composition() {
+        // A slit crawling along the circle, each step taken in a frame centred near its tip
+        // (|c| = 0.9 towards the tip) and read in a frame centred far from it, as the CLE
+        // geometry records them.
+        let mut chain = DiskChain::new();
+        for k in 0..1200 {
+            let xi = 0.2 + 0.002 * k as f64;
+            let near = Mobius {
+                c: Complex64::from_polar(0.9, xi),
+                rot: c(1.0, 0.0),
+            };
+            let step = RadialStep::new(0.0, 1e-3);
+            chain.push(conjugated(step, c(1.0, 0.0), near).0);
+        }
+        let (with, all) = chain.series_blocks();
+        assert!(with * 2 > all, "{with} of {all} blocks have a series");
+        for z in [
+            c(0.0, 0.0),
+            c(-0.5, 0.1),
+            c(0.3, 0.6),
+            Complex64::from_polar(0.999, 2.5),
+        ] {
+            let fast = chain.apply_prefix(chain.len(), z);
+            let direct = chain.apply_prefix_direct(chain.len(), z);
+            assert!((fast - direct).norm() < 1e-10, "{z}: {fast} vs {direct}");
+        }
     }
 }

@@ -1,137 +1,120 @@
-//! Whole CLE_κ configurations in the unit disk as geometry: every loop of diameter at least ε,
-//! as a closed polyline with its nesting depth and parent loop, for 8/3 < κ < 8.
+//! Whole CLE_κ configurations in the unit disk as geometry: the loops of diameter at least ε,
+//! each a closed polyline with its nesting depth, its parent loop and its conformal radius, for
+//! 8/3 < κ < 8.
 //!
-//! # Method: recursive regions
-//! A *region* is a simply connected part of the disk still to be explored (the disk itself, a
-//! loop's interior, a pocket cut off by an exploration), given as a polygon in the plane. Each
-//! region is explored by one branch of Sheffield's exploration (radial SLE_κ(κ−6) towards the
-//! region's deepest point, Duke Math. J. 2009), in the region's own frame: the geodesic zipper
-//! ([`crate::geozip`]) maps the polygon onto D with that point at 0, and the branch's steps are
-//! radial slits ([`RadialStep`]) collected in a [`DiskChain`]. Each tip is taken back through the
-//! chain and the zipper, so the trace is drawn in the plane as it is made.
+//! # Method: one branching exploration towards a grid of points
+//! Sheffield's exploration tree (Duke Math. J. 2009) is run by [`crate::cle::CleExplorer`]
+//! towards every point of a square grid of spacing `grid` (default ε/2) in the disk: one
+//! radial SLE_κ(κ−6) whose branches split when points are disconnected from each other, each
+//! branch driven by the point that sees its tip best (DESIGN §6.2). This module records the
+//! branches' geometry: every frame change and every step is kept as a map of a
+//! [`DiskChain`] (the fast composition of DESIGN §4), a branch's chain continues its parent's
+//! (shared, not copied), and the tip of every step is taken back to the disk through the whole
+//! ancestry. So the trace is drawn in the plane as it is made, with nothing but the Loewner
+//! chain in between.
 //!
-//! The angle θ = ξ − η between the driving point and the force point is stepped by the exact
-//! scheme of [`AngleProcess`]. The force point moves with the chain's own flow (the image of the
-//! boundary point under each slit map) and the next slit grows from `η + θ`. Near an end of θ
-//! the steps are cut to at most `d²/(16κ)` (d the distance to the end) so that the force
-//! point's push stays small against the slit; below the spatial resolution (d smaller than the
-//! length of a slit) the steps are not cut further.
+//! **Where the loops are.** An excursion of a point's angle θ_z from 0 to ±2π closes the loop
+//! around z (DESIGN §6.1): the trace from the last visit of θ to an end (the tip at the force
+//! point) until the closing time, on z's branch including its ancestors, is the loop. It starts
+//! and ends at the same point of the plane; for 4 < κ < 8 its first part may have been traced
+//! by an ancestor towards another target (an arch, whose pocket the branch then entered),
+//! which the shared chains handle without special cases.
 //!
-//! Excursions of θ away from its ends trace loops (DESIGN §6.1):
-//! * an excursion that reaches ±2π closes the loop around the region's point; the branch stops
-//!   there;
-//! * for κ ≤ 4 an excursion that returns to 0 traces a whole simple loop that does not surround
-//!   the point;
-//! * for 4 < κ < 8 it traces only the outer *arch* of such a loop, from its start p to the point
-//!   x where it lands; the rest of the loop lies in the pocket under the arch (on the force
-//!   point's side, the arch's left), and given the arch it is the continuation of the same
-//!   exploration in that pocket: radial SLE_κ(κ−6) towards the pocket's point with its force
-//!   point at p and its tip at x, θ then being the harmonic measure of the arch seen from that
-//!   point times 2π (target invariance; Schramm & Wilson, New York J. Math. 2005). The pocket is
-//!   explored with that state and the loop grows until it closes.
+//! Two points inside one loop can be separated before it closes (for 4 < κ < 8 the loop
+//! touches itself and pinches its interior into several components): each then closes "its"
+//! loop, all from the same start. Only one of these traces returns to the start — the others
+//! end where the pinch cut them off — and it is the loop; the others are recorded as the same
+//! loop (same identifier) with their own conformal radii.
 //!
-//! What a branch cuts off is found in the plane: the region is rasterised at a cell size of half
-//! the spacing, the trace is drawn into the raster with a thickness of one cell (so parts of the
-//! trace closer than about the spacing count as touching), and the free cells fall into
-//! 4-connected components. Each component is a new region, bounded by the polygon along its cell
-//! edges. A component inside one of the loops just traced (by winding number) lies one level
-//! deeper, with that loop as its parent; the others keep the region's depth. Regions smaller than
-//! ε across are dropped (no loop of diameter ε fits in them); pockets under arches are kept down
-//! to four cells, so that loops are completed at the spacing.
-//!
-//! Regions are independent given their polygons, so they are explored in parallel, in waves;
-//! each region's random stream comes from its address in the tree of regions, so a configuration
-//! is a pure function of (seed, index) whatever the number of threads.
-//!
-//! A branch is handed on when its point's conformal radius falls below two cells (or after
-//! 2000 steps: evaluating a chain costs up to its length, so short chains are fast ones), but
-//! only between excursions: an excursion in progress is finished in the frame it started in
-//! (its law does not depend on the target), because a new frame centred far from the tip
-//! resolves it badly. The component of the raster holding the deepest point left then becomes
-//! a new region, explored afresh — the loops' law in the remaining domain does not depend on
-//! where a fresh exploration starts, so it starts at the boundary point nearest the region's
-//! point, where the frame resolves the plane best. A region stops after 8000 steps.
+//! A point is no longer explored once its conformal radius in the remaining domain is below
+//! `stop_radius` (default ε/4): a loop of diameter ε around it would have to be long and
+//! thin. A loop is therefore found when it surrounds a grid point that still has a conformal
+//! radius of at least `stop_radius` when it closes; loops that surround no such point are
+//! missing from the picture (see *Resolution*).
 //!
 //! # Status: experimental, not used by the command line
-//! Measured on this machine (2 cores, spacing ε/6; `unresolved` = loops of diameter ≥ ε with a
-//! stretch longer than four spacings, dropped):
-//! * κ = 3, ε = 0.1, seed 1: 718 regions, 97 714 steps, 32 s, 18 MB peak; 27 of 97 714 steps
-//!   moved the tip more than three spacings; 11 loops kept, 11 unresolved. Over seeds 1–6 at
-//!   ε = 0.15: 33 kept, 31 unresolved. The kept loops look like CLE₃ loops (sparse: the loop
-//!   around a point has E[−log CR] ≈ 22 at κ = 3 by the SSW law, so large empty stretches of
-//!   gasket are expected).
-//! * κ = 6, ε = 0.1, seed 1: 201 regions, 115 968 steps, 39 s, 17 MB; 13 kept, 38 unresolved.
-//!   Over seeds 1–6 at ε = 0.15: 34 kept, 105 unresolved; 39 kept, 87 unresolved since a
-//!   κ > 4 loop may close (θ → 2π) only back at its start, not wherever the tip touches old
-//!   trace (seed 1 at ε = 0.1 then gives 15 kept, 19 unresolved, 41 s; the other one-seed
-//!   figures are from before that change). Drawn with the unresolved loops, the
-//!   configuration shows the large touching loops of CLE₆, but the large loops are the ones
-//!   dropped: their gap is the segment that closes them (10–60 spacings), left when the pocket
-//!   under one of their arches is not found on the raster (24 of 39 arches wider than 0.05 in
-//!   one configuration) or the branch hits the step budget.
-//! * Four changes to the pocket search were tried and measured worse or no better on the
-//!   six-seed count (searching the whole arch at 2–4.5 cells; sealing the landing point to
-//!   the old trace; taking the component that reaches both ends of the arch; looking on the
-//!   arch's right instead of its left, 36 kept and 101 unresolved — so the side is not the
-//!   cause). Single-seed
-//!   comparisons are useless here: rounding alone moves one configuration from 22 to 38
-//!   unresolved loops.
-//! * Fixed in the geodesic zipper (they caused most jumps before): boundary vertices were mapped
-//!   to the exterior side of the next opened slit, and a first vertex hidden from the centre
-//!   squeezed the visible boundary to within 10⁻²⁰ of the centre's image.
-//! * No geometric or statistical check of the configurations has been run yet beyond
-//!   determinism; the gating of θ's ends by the plane (below) is what made loops close at their
-//!   start (closing gaps of up to 0.18 before it).
+//! This replaces a version that explored regions cut out of a raster with a polygon zipper
+//! (in the history before 2026-12-03): there the pockets under arches were found on the
+//! raster, and most large loops of κ > 4 were left open. Here nothing is rasterised and a
+//! loop is closed by its own trace, but the configurations are still not right. Measured on
+//! this machine (2 cores, ε = 0.2, defaults):
+//! * κ = 3, seeds 1–3: 11, 9 and 10 s; 5, 11 and 5 closures; 3, 3 and 0 closed loops of
+//!   diameter ≥ ε and 2, 1, 0 open ones; 337, 470 and 3 steps longer than three spacings;
+//!   3, 4 and 1 stalled branches.
+//! * κ = 6, seeds 0–2: the exploration squeezes most grid points out before they are cut off
+//!   (one branch, no closure in a configuration; 87 s for another, mostly in very short
+//!   steps).
+//! * The root branch's trace, drawn alone, looks like a CLE exploration; the branches split
+//!   off it were the trouble, and three causes were found and fixed: (1) a new branch's frame
+//!   was a sliver of its parent's reference frame, where slits fall below the precision (its
+//!   reference frame is now re-centred in its own domain before its first step); (2) a step
+//!   that visits an end left the loop or pocket it closed open in the chain, so a branch cut
+//!   off there started at a neck and its first step jumped 10–25 spacings into the other side
+//!   (a visit of 2π now ends the step at the force point; a visit of 0 splits the step in two
+//!   halves); (3) the loop start of a branch cut off at a visit is the visit before.
+//! * **What is still wrong**: the explorer carries every non-driving point by its image in
+//!   the driver's frame. A driver deep in the domain (radial time 20–30 before the first loop
+//!   around it at κ = 3, by the SSW law) squeezes far points within `pinch` of the circle
+//!   although nothing separates them, so they leave at the next visit of an end — early, with a
+//!   future of their own that the parent traces differently — or, when splits are allowed only
+//!   at real cut-offs, they fall below the precision and are lost (both tried: the first gives
+//!   overlapping traces, the second empty configurations). Choosing the deepest point as
+//!   driver instead of the nearest was tried and was worse. The next step is to carry the
+//!   points in a frame that does not squeeze them (the branch's reference frame, or their
+//!   plane positions mapped forward when they matter), so that a split happens only at a cut.
 //!
 //! # Resolution, and what is approximate
-//! * Polylines have a target spacing `spacing` (default ε/6); a step whose tip moved more than
-//!   three spacings is counted (`long_segments`).
-//! * Touching is decided at the raster's resolution: two loops, or two parts of one loop,
-//!   closer than about one spacing are treated as touching.
-//! * A branch with nothing left wider than two cells finishes its excursion towards the same
-//!   point and stops; one that runs out of target switches closes the loop in progress by a
-//!   straight segment (`closed_early`).
-//! * Regions narrower than ε/5 (twice the inradius of their raster component) are dropped: a
-//!   CLE loop is rarely much longer than the width of the region that holds it.
-//! * A loop with a stretch longer than four spacings is dropped and counted (`unresolved`).
-//! * For κ ≤ 4 the net push of the hidden (unresolved) excursions on the force point is
-//!   neglected, as in [`crate::cle`] (DESIGN §6.1).
+//! * The steps are cut so that the tip moves about `spacing` (default ε/6) in the plane: the
+//!   scale of the map at the tip is estimated from the previous step and carried through frame
+//!   changes by the derivative of the automorphism. Steps are also cut near marked points and
+//!   near the ends of θ as in [`crate::cle`]. The largest gap of every loop is reported.
+//! * The closing test: a closure counts as a loop's own when its trace ends within
+//!   `close_gap` spacings (default 3) of its start. A group of closures with a common start of
+//!   which none returns is an *open* loop: reported (counted, with its conformal radii) but not
+//!   drawn, since part of it is missing.
+//! * For κ ≤ 4 the net push of the hidden excursions on the force point is neglected, as in
+//!   [`crate::cle`] (DESIGN §6.1).
 
-use crate::cle::{AngleProcess, EndVisit};
-use crate::disk_fast::{DiskChain, DiskMap};
+use crate::cle::{CleExplorer, EndVisit, ExploreSettings, Recorder};
+use crate::disk_fast::{DiskChain, DiskMap, Mobius};
 use crate::error::{Error, Result};
-use crate::geozip::GeodesicZipper;
 use crate::polygon::winding_number;
-use crate::radial::RadialStep;
-use crate::rng::{self, Tag};
 use num_complex::Complex64;
-use rayon::prelude::*;
 use serde::Serialize;
-use std::collections::VecDeque;
+use std::cell::RefCell;
+use std::collections::HashMap;
 use std::f64::consts::PI;
-
-const TWO_PI: f64 = 2.0 * PI;
-/// Target switches allowed in one region before its branch is stopped.
-const MAX_SWITCHES: u32 = 400;
+use std::sync::{Arc, OnceLock};
 
 /// Numerical settings of a configuration.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
 pub struct LoopSettings {
     /// Loops of diameter at least this are kept (ε).
     pub min_size: f64,
-    /// Target spacing of consecutive polyline points (default ε/6).
+    /// Target distance between consecutive points of a loop (default ε/6).
     pub spacing: f64,
-    /// Largest step, in radial time of the region's frame (default 0.01).
+    /// Spacing of the grid of target points (default ε/2).
+    pub grid: f64,
+    /// A point is no longer explored when its conformal radius falls below this (default ε/4).
+    pub stop_radius: f64,
+    /// A closure is its loop's own when it ends within this many spacings of its start
+    /// (default 3).
+    pub close_gap: f64,
+    /// Largest step, in the driving point's radial time (default 0.01).
     pub h_max: f64,
-    /// Smallest step (default 1e-14).
-    pub h_min: f64,
-    /// Steps near an end of θ are at most `d²/(end_resolution·κ)` (default 16).
-    pub end_resolution: f64,
-    /// Steps of one region after which its branch is handed on at the end of the excursion in
-    /// progress (default 2000); a region stops at four times this, closing its loop early.
-    pub max_steps_per_region: u64,
-    /// Region budget of one configuration (default 10⁶).
-    pub max_regions: usize,
+    /// A point whose pseudo-hyperbolic closeness to the driver falls below this leaves on its
+    /// own branch (default 1e-9; see [`crate::cle::ExploreSettings::pinch`]).
+    pub pinch: f64,
+    /// Steps keep every other marked point at least `separation·√(κh)` from the tip, in the
+    /// driver's frame (default 3; the statistics of [`crate::cle`] use 8).
+    pub separation: f64,
+    /// The driver changes when another point's Poisson kernel at the tip is this many times
+    /// its own (default 20; larger keeps the frames' slits small, which the fast composition
+    /// needs).
+    pub switch_ratio: f64,
+    /// Step budget of one configuration (default 5·10⁷); exceeding it leaves the configuration
+    /// incomplete, which is reported.
+    pub max_steps: u64,
 }
 
 impl LoopSettings {
@@ -140,40 +123,74 @@ impl LoopSettings {
         LoopSettings {
             min_size,
             spacing: min_size / 6.0,
+            grid: min_size / 2.0,
+            stop_radius: min_size / 4.0,
+            close_gap: 3.0,
             h_max: 0.01,
-            h_min: 1e-14,
-            end_resolution: 16.0,
-            max_steps_per_region: 2_000,
-            max_regions: 1_000_000,
+            separation: 3.0,
+            pinch: 1e-9,
+            switch_ratio: 1.5,
+            max_steps: 50_000_000,
         }
-    }
-
-    /// Raster cell size: half the spacing.
-    pub fn cell(&self) -> f64 {
-        0.5 * self.spacing
     }
 
     /// Check the settings.
     ///
     /// Errors: [`Error::InvalidParameter`] naming the first value out of range.
     pub fn validate(&self) -> Result<()> {
-        if !(self.min_size.is_finite() && self.min_size >= 0.005 && self.min_size <= 1.0) {
+        if !(self.min_size.is_finite() && self.min_size >= 0.01 && self.min_size <= 1.0) {
             return Err(Error::param(
                 "min-size",
                 self.min_size,
-                "0.005 <= min-size <= 1 (the smallest loop diameter kept; memory grows like \
+                "0.01 <= min-size <= 1 (the smallest loop diameter kept; the work grows like \
                  1/min-size^2)",
             ));
         }
-        if !(self.spacing.is_finite()
-            && self.spacing >= self.min_size / 50.0
-            && self.spacing <= self.min_size / 2.0)
-        {
+        let e = self.min_size;
+        if !(self.spacing.is_finite() && self.spacing >= e / 50.0 && self.spacing <= e / 2.0) {
             return Err(Error::param(
                 "spacing",
                 self.spacing,
                 "min-size/50 <= spacing <= min-size/2",
             ));
+        }
+        if !(self.grid.is_finite() && self.grid >= e / 8.0 && self.grid <= e) {
+            return Err(Error::param(
+                "grid",
+                self.grid,
+                "min-size/8 <= grid <= min-size",
+            ));
+        }
+        if !(self.stop_radius.is_finite() && self.stop_radius >= e / 100.0 && self.stop_radius <= e)
+        {
+            return Err(Error::param(
+                "stop-radius",
+                self.stop_radius,
+                "min-size/100 <= stop-radius <= min-size",
+            ));
+        }
+        if !(self.close_gap.is_finite() && self.close_gap >= 1.0 && self.close_gap <= 20.0) {
+            return Err(Error::param(
+                "close-gap",
+                self.close_gap,
+                "1 <= close-gap <= 20",
+            ));
+        }
+        if !(self.separation.is_finite() && self.separation >= 1.0 && self.separation <= 20.0) {
+            return Err(Error::param(
+                "separation",
+                self.separation,
+                "1 <= separation <= 20",
+            ));
+        }
+        if !(self.pinch.is_finite() && self.pinch >= 1e-12 && self.pinch <= 1e-4) {
+            return Err(Error::param("pinch", self.pinch, "1e-12 <= pinch <= 1e-4"));
+        }
+        if !(self.h_max.is_finite() && self.h_max > 0.0 && self.h_max <= 0.1) {
+            return Err(Error::param("h-max", self.h_max, "0 < h-max <= 0.1"));
+        }
+        if self.max_steps == 0 {
+            return Err(Error::param("max-steps", 0.0, "max-steps >= 1"));
         }
         Ok(())
     }
@@ -188,20 +205,26 @@ pub struct CleLoop {
     pub parent: Option<usize>,
     /// Nesting depth: 1 for outermost loops, `depth(parent) + 1` otherwise.
     pub depth: u32,
-    /// The closed polyline, counterclockwise or clockwise as traced (first point not repeated).
+    /// The closed polyline in the unit disk, in the order traced (first point not repeated).
+    /// Empty for an open loop (see [`CleLoop::closed`]).
     #[serde(serialize_with = "ser_points")]
     pub points: Vec<Complex64>,
-    /// The point of the region whose branch closed the loop around itself, when that is how the
-    /// loop ended (its conformal radius is then exact from the chain).
-    #[serde(serialize_with = "ser_opt_point")]
-    pub seen_from: Option<Complex64>,
-    /// `log CR(interior, seen_from)`, from the branch's radial time.
-    pub log_cr: Option<f64>,
-    /// Diameter of the polyline.
+    /// Whether the trace returned to its start (false: part of the loop is missing and it is
+    /// not drawn; its conformal radii are still exact).
+    pub closed: bool,
+    /// The grid point whose exploration closed the loop (it lies inside the loop).
+    #[serde(serialize_with = "ser_point")]
+    pub seen_from: Complex64,
+    /// `log CR(U, seen_from)`, U the component of the loop's complement containing the point,
+    /// from the exploration's radial time (exact for the chain, not measured on the polyline).
+    pub log_cr: f64,
+    /// Diameter of the polyline (0 for an open loop).
     pub diameter: f64,
-    /// Whether a stretch longer than the spacing was closed by a straight segment (the branch
-    /// stopped early, or the loop's last pocket was below the resolution).
-    pub closed_by_segment: bool,
+    /// Largest distance between consecutive points of the polyline, the closing segment
+    /// included.
+    pub largest_gap: f64,
+    /// Grid points inside the loop (found by the exploration).
+    pub points_inside: usize,
 }
 
 fn ser_points<S: serde::Serializer>(p: &[Complex64], s: S) -> std::result::Result<S::Ok, S::Error> {
@@ -213,43 +236,28 @@ fn ser_points<S: serde::Serializer>(p: &[Complex64], s: S) -> std::result::Resul
     q.end()
 }
 
-fn ser_opt_point<S: serde::Serializer>(
-    p: &Option<Complex64>,
-    s: S,
-) -> std::result::Result<S::Ok, S::Error> {
-    match p {
-        Some(z) => s.serialize_some(&[z.re, z.im]),
-        None => s.serialize_none(),
-    }
+fn ser_point<S: serde::Serializer>(z: &Complex64, s: S) -> std::result::Result<S::Ok, S::Error> {
+    [z.re, z.im].serialize(s)
 }
 
 /// Counters of a configuration (what was approximated, and the cost).
 #[derive(Debug, Clone, Default, PartialEq, Serialize)]
 pub struct LoopDiagnostics {
-    /// Regions explored.
-    pub regions: u64,
+    /// Grid points explored.
+    pub grid_points: u64,
+    /// Branches of the exploration tree.
+    pub branches: u64,
     /// Steps of all branches.
     pub steps: u64,
-    /// Steps whose tip moved more than three spacings.
-    pub long_segments: u64,
-    /// Branches stopped before their loop closed (point's conformal radius below half a cell,
-    /// or step budget).
-    pub closed_early: u64,
-    /// Regions dropped because the zipper could not map them.
-    pub zipper_failures: u64,
-    /// Branches stopped because a point of the trace was mapped outside its region (the loop
-    /// in progress is dropped).
-    pub lost_points: u64,
-    /// Regions dropped for being smaller than ε (or an arch pocket below four cells).
-    pub small_regions: u64,
-    /// Loops traced, of any size.
-    pub loops_traced: u64,
-    /// Loops of diameter ≥ ε dropped because a stretch of their polyline (a jump of the trace
-    /// or the segment that closes it) is longer than four spacings.
-    pub unresolved: u64,
-    /// Largest number of polygon vertices of a region.
-    pub max_polygon: u64,
-    /// Whether the region budget ran out (the configuration is incomplete).
+    /// Loop closures seen (all sizes, each point's view counted).
+    pub closures: u64,
+    /// Loops of diameter ≥ ε whose trace did not return to its start (kept as open loops).
+    pub open_loops: u64,
+    /// Steps whose tip moved more than three spacings in the plane.
+    pub long_steps: u64,
+    /// Branches stopped because their tip could not be resolved (module docs).
+    pub stalled_branches: u64,
+    /// Whether the step budget ran out (the configuration is incomplete).
     pub truncated: bool,
 }
 
@@ -258,814 +266,23 @@ pub struct LoopDiagnostics {
 pub struct LoopConfiguration {
     /// Sample index.
     pub index: u64,
-    /// Loops of diameter at least ε, parents before children.
+    /// Loops of diameter at least ε (closed ones) and the open ones, parents before children.
     pub loops: Vec<CleLoop>,
     /// Counters.
     pub diagnostics: LoopDiagnostics,
 }
 
 impl LoopConfiguration {
-    /// The loops surrounding `z` (winding number ≠ 0), outermost first.
+    /// The closed loops surrounding `z` (winding number ≠ 0), outermost first.
     pub fn surrounding(&self, z: Complex64) -> Vec<&CleLoop> {
         let mut v: Vec<&CleLoop> = self
             .loops
             .iter()
-            .filter(|l| winding_number(&l.points, z) != 0)
+            .filter(|l| l.closed && winding_number(&l.points, z) != 0)
             .collect();
         v.sort_by_key(|l| l.depth);
         v
     }
-}
-
-/// Sampler of CLE_κ configurations (module docs).
-#[derive(Debug, Clone)]
-pub struct LoopSampler {
-    process: AngleProcess,
-    settings: LoopSettings,
-}
-
-/// The frame of a region: the disk itself, or a polygon mapped by the zipper.
-enum Frame {
-    Disk,
-    Zip(GeodesicZipper),
-}
-
-impl Frame {
-    fn to_plane(&self, w: Complex64) -> Complex64 {
-        match self {
-            Frame::Disk => w,
-            Frame::Zip(z) => z.from_disk(w),
-        }
-    }
-    fn to_disk(&self, p: Complex64) -> Complex64 {
-        match self {
-            Frame::Disk => p,
-            Frame::Zip(z) => z.to_disk(p),
-        }
-    }
-}
-
-/// A loop being continued in a pocket (κ > 4): its start p and where it landed, x.
-#[derive(Debug, Clone, Copy)]
-struct Continuation {
-    loop_idx: usize,
-    p: Complex64,
-    x: Complex64,
-}
-
-#[derive(Debug, Clone)]
-struct Region {
-    id: u64,
-    polygon: Option<Vec<Complex64>>,
-    centre: Complex64,
-    depth: u32,
-    parent: Option<usize>,
-    cont: Option<Continuation>,
-    candidates: Vec<usize>,
-}
-
-#[derive(Debug, Clone, Copy, PartialEq)]
-enum PieceEnd {
-    Zero,
-    Full,
-    Cut,
-}
-
-#[derive(Debug, Clone)]
-struct Piece {
-    start: Complex64,
-    points: Vec<Complex64>,
-    end: PieceEnd,
-    continues: bool,
-}
-
-#[derive(Debug, Clone)]
-enum ChildKind {
-    Fresh,
-    /// The rest of the domain where the branch was handed on between loops: a fresh
-    /// exploration (from the boundary point nearest the region's point).
-    Handed,
-    /// The loop of this piece continues in the child (θ > 0: the pocket lies on the arch's
-    /// left).
-    Arch(usize),
-}
-
-#[derive(Debug, Clone)]
-struct Child {
-    polygon: Vec<Complex64>,
-    centre: Complex64,
-    kind: ChildKind,
-}
-
-#[derive(Debug, Default)]
-struct Outcome {
-    pieces: Vec<Piece>,
-    log_cr_final: Option<f64>,
-    seen_from: Option<Complex64>,
-    children: Vec<Child>,
-    /// Arch pieces whose pocket was dropped (their loop is closed by a segment).
-    orphan_arches: Vec<usize>,
-    diag: LoopDiagnostics,
-    failed: bool,
-}
-
-#[derive(Debug, Clone)]
-struct LoopRec {
-    points: Vec<Complex64>,
-    depth: u32,
-    parent: Option<usize>,
-    complete: bool,
-    seen_from: Option<Complex64>,
-    log_cr: Option<f64>,
-    by_segment: bool,
-}
-
-impl LoopSampler {
-    /// A sampler for CLE_κ.
-    ///
-    /// Errors: [`Error::InvalidParameter`] unless 8/3 < κ < 8 and the settings pass
-    /// [`LoopSettings::validate`].
-    pub fn new(kappa: f64, settings: LoopSettings) -> Result<Self> {
-        let process = AngleProcess::new(kappa)?;
-        settings.validate()?;
-        Ok(LoopSampler { process, settings })
-    }
-
-    /// The settings.
-    pub fn settings(&self) -> &LoopSettings {
-        &self.settings
-    }
-
-    /// κ.
-    pub fn kappa(&self) -> f64 {
-        self.process.kappa()
-    }
-
-    /// Configuration `index` of a run with `seed` (a pure function of both).
-    pub fn sample(&self, seed: u64, index: u64) -> LoopConfiguration {
-        let eps = self.settings.min_size;
-        let mut loops: Vec<LoopRec> = Vec::new();
-        let mut diag = LoopDiagnostics::default();
-        let mut pending: VecDeque<Region> = VecDeque::new();
-        pending.push_back(Region::root());
-        let mut explored = 0usize;
-        while !pending.is_empty() {
-            // A wave: every region whose candidate loops are complete.
-            let mut wave = Vec::new();
-            let mut rest = VecDeque::new();
-            while let Some(mut r) = pending.pop_front() {
-                if r.candidates.iter().all(|&c| loops[c].complete) {
-                    classify(&mut r, &loops);
-                    wave.push(r);
-                } else {
-                    rest.push_back(r);
-                }
-            }
-            pending = rest;
-            if wave.is_empty() {
-                // Cannot happen (every arch loop has a pocket in the queue or was closed); close
-                // whatever is open rather than loop forever.
-                for l in loops.iter_mut().filter(|l| !l.complete) {
-                    l.complete = true;
-                    l.by_segment = true;
-                }
-                continue;
-            }
-            if explored + wave.len() > self.settings.max_regions {
-                diag.truncated = true;
-                wave.truncate(self.settings.max_regions.saturating_sub(explored));
-                pending.clear();
-            }
-            explored += wave.len();
-            let outcomes: Vec<Outcome> = wave
-                .par_iter()
-                .map(|r| {
-                    let mut g = rng::substream(seed, Tag::Loops, index, r.id);
-                    self.explore(r, &mut g)
-                })
-                .collect();
-            for (r, o) in wave.iter().zip(outcomes) {
-                self.merge(r, o, &mut loops, &mut pending, &mut diag);
-            }
-        }
-        for l in loops.iter_mut().filter(|l| !l.complete) {
-            l.complete = true;
-            l.by_segment = true;
-        }
-        diag.loops_traced = loops.len() as u64;
-        // Keep loops of diameter ≥ ε, parents before children, renumbered.
-        // A loop with a stretch longer than four spacings (a jump of the trace, or a closing
-        // segment) is not resolved: it is dropped and counted, not drawn.
-        let jump = 4.0 * self.settings.spacing;
-        let mut keep: Vec<(usize, f64)> = Vec::new();
-        for (k, l) in loops.iter().enumerate() {
-            let d = diameter(&l.points);
-            if d < eps {
-                continue;
-            }
-            if max_gap(&l.points) > jump {
-                diag.unresolved += 1;
-                continue;
-            }
-            keep.push((k, d));
-        }
-        keep.sort_by_key(|&(k, _)| (loops[k].depth, k));
-        let mut new_id = vec![usize::MAX; loops.len()];
-        for (j, &(k, _)) in keep.iter().enumerate() {
-            new_id[k] = j;
-        }
-        let out = keep
-            .iter()
-            .enumerate()
-            .map(|(j, &(k, d))| {
-                let l = &loops[k];
-                // A kept loop's parent is at least as large, so it is kept too.
-                let parent = l
-                    .parent
-                    .and_then(|p| (new_id[p] != usize::MAX).then_some(new_id[p]));
-                CleLoop {
-                    id: j,
-                    parent,
-                    depth: l.depth,
-                    points: l.points.clone(),
-                    seen_from: l.seen_from,
-                    log_cr: l.log_cr,
-                    diameter: d,
-                    closed_by_segment: l.by_segment,
-                }
-            })
-            .collect();
-        LoopConfiguration {
-            index,
-            loops: out,
-            diagnostics: diag,
-        }
-    }
-
-    /// `log CR` of the interior of the loop around 0 seen from 0, when the first branch (the
-    /// exploration of the disk towards 0) closes it before being handed on; `None` when it is
-    /// handed on or stopped first. For checks of the branch against the exact law of that loop
-    /// (Schramm, Sheffield & Wilson, Comm. Math. Phys. 2009): with a step budget large enough,
-    /// the branch is handed on only once `CR(D_t, 0)` is below two cells, so `T = −log CR ≤ t`
-    /// is decided for every `t < log(1/(2·cell))`.
-    pub fn first_loop_log_cr(&self, seed: u64, index: u64) -> Option<f64> {
-        let root = Region::root();
-        let mut g = rng::substream(seed, Tag::Loops, index, root.id);
-        self.explore(&root, &mut g).log_cr_final
-    }
-
-    /// Turn a region's outcome into loops and new regions.
-    fn merge(
-        &self,
-        r: &Region,
-        o: Outcome,
-        loops: &mut Vec<LoopRec>,
-        pending: &mut VecDeque<Region>,
-        diag: &mut LoopDiagnostics,
-    ) {
-        let big = self.kappa() > 4.0;
-        diag.regions += 1;
-        diag.steps += o.diag.steps;
-        diag.long_segments += o.diag.long_segments;
-        diag.closed_early += o.diag.closed_early;
-        diag.lost_points += o.diag.lost_points;
-        diag.small_regions += o.diag.small_regions;
-        diag.max_polygon = diag.max_polygon.max(o.diag.max_polygon);
-        if o.failed {
-            diag.zipper_failures += 1;
-            if let Some(c) = r.cont {
-                let l = &mut loops[c.loop_idx];
-                l.complete = true;
-                l.by_segment = true;
-            }
-            return;
-        }
-        let mut global = vec![usize::MAX; o.pieces.len()];
-        for (i, piece) in o.pieces.iter().enumerate() {
-            let idx = if piece.continues {
-                let c = r.cont.expect("a continuing piece has a loop");
-                loops[c.loop_idx].points.extend_from_slice(&piece.points);
-                c.loop_idx
-            } else {
-                if piece.points.is_empty() {
-                    continue;
-                }
-                let mut pts = Vec::with_capacity(piece.points.len() + 1);
-                pts.push(piece.start);
-                pts.extend_from_slice(&piece.points);
-                loops.push(LoopRec {
-                    points: pts,
-                    depth: r.depth + 1,
-                    parent: r.parent,
-                    complete: false,
-                    seen_from: None,
-                    log_cr: None,
-                    by_segment: false,
-                });
-                loops.len() - 1
-            };
-            global[i] = idx;
-            let l = &mut loops[idx];
-            match piece.end {
-                PieceEnd::Full => {
-                    l.complete = true;
-                    l.seen_from = o.seen_from;
-                    l.log_cr = o.log_cr_final;
-                }
-                PieceEnd::Zero => {
-                    // κ ≤ 4: the whole loop; κ > 4: an arch, completed in its pocket.
-                    if !big {
-                        l.complete = true;
-                    }
-                }
-                PieceEnd::Cut => {
-                    l.complete = true;
-                    l.by_segment = true;
-                }
-            }
-        }
-        for &i in &o.orphan_arches {
-            if global[i] != usize::MAX {
-                let l = &mut loops[global[i]];
-                l.complete = true;
-            }
-        }
-        // Loops of this exploration that may surround the new regions.
-        let eps = self.settings.min_size;
-        let mut cands: Vec<usize> = global
-            .iter()
-            .copied()
-            .filter(|&g| g != usize::MAX)
-            .filter(|&g| !loops[g].complete || bbox_diagonal(&loops[g].points) >= eps)
-            .collect();
-        cands.dedup();
-        for (k, ch) in o.children.into_iter().enumerate() {
-            let id = mix(r.id, k as u64);
-            match ch.kind {
-                ChildKind::Fresh | ChildKind::Handed => pending.push_back(Region {
-                    id,
-                    polygon: Some(ch.polygon),
-                    centre: ch.centre,
-                    depth: r.depth,
-                    parent: r.parent,
-                    cont: None,
-                    candidates: cands.clone(),
-                }),
-                ChildKind::Arch(i) => {
-                    let piece = &o.pieces[i];
-                    let x = *piece.points.last().unwrap_or(&piece.start);
-                    let loop_idx = global[i];
-                    let p = loops[loop_idx].points[0];
-                    pending.push_back(Region {
-                        id,
-                        polygon: Some(ch.polygon),
-                        centre: ch.centre,
-                        depth: r.depth,
-                        parent: r.parent,
-                        cont: Some(Continuation { loop_idx, p, x }),
-                        candidates: Vec::new(),
-                    });
-                }
-            }
-        }
-    }
-
-    /// Explore one region: the branch towards its point, then what it cut off.
-    fn explore<R: rand::Rng + ?Sized>(&self, r: &Region, rng: &mut R) -> Outcome {
-        let s = &self.settings;
-        let kappa = self.kappa();
-        let big = kappa > 4.0;
-        let mut out = Outcome::default();
-        let frame = match &r.polygon {
-            None => Frame::Disk,
-            Some(p) => match GeodesicZipper::new(p, r.centre) {
-                Ok(z) => Frame::Zip(z),
-                Err(_) => {
-                    out.failed = true;
-                    return out;
-                }
-            },
-        };
-        let centre = r.centre;
-        let mut switches = 0u32;
-        let mut exhausted = false;
-        let log_cr0 = match &frame {
-            Frame::Disk => 0.0,
-            Frame::Zip(z) => z.conformal_radius(r.centre).ln(),
-        };
-        if !log_cr0.is_finite() {
-            out.failed = true;
-            return out;
-        }
-        let cell = s.cell();
-        // Initial state: a fresh exploration from angle 0, or the loop in progress.
-        let (mut xi, mut eta, mut theta, start) = match (r.cont, &r.polygon) {
-            (Some(c), Some(poly)) => {
-                let ap = frame.to_disk(nearest_vertex(poly, c.p)).arg();
-                let ax = frame.to_disk(nearest_vertex(poly, c.x)).arg();
-                let th = (ax - ap).rem_euclid(TWO_PI).clamp(1e-9, TWO_PI - 1e-9);
-                (ax, ap, th, c.x)
-            }
-            (None, Some(poly)) => {
-                // A fresh exploration may start anywhere on the boundary (the loops' law does
-                // not depend on it): start where the boundary is closest to the region's point,
-                // where the frame resolves the plane best.
-                let z = nearest_vertex(poly, r.centre);
-                let a = frame.to_disk(z).arg();
-                (a, a, 0.0, z)
-            }
-            _ => (0.0, 0.0, 0.0, frame.to_plane(Complex64::new(1.0, 0.0))),
-        };
-        // Where the branch is handed on to a child region (between excursions), if it is: a
-        // point of the child.
-        let mut handed: Option<Complex64> = None;
-        // The raster of the region; during the exploration a blocked cell holds the step that
-        // blocked it (−1: outside the region).
-        let mut ras = match &r.polygon {
-            None => Raster::disk(cell),
-            Some(p) => Raster::polygon(p, cell),
-        };
-        let mut pieces = vec![Piece {
-            start,
-            points: Vec::new(),
-            end: PieceEnd::Cut,
-            continues: r.cont.is_some(),
-        }];
-        let mut chain = DiskChain::new();
-        let mut prev = start;
-        let cr0 = log_cr0.exp();
-        let mut h_sp = (0.5 * s.spacing / cr0).powi(2).clamp(s.h_min, s.h_max);
-        let mut t = 0.0;
-        let mut t_max = (cr0 / (2.0 * cell)).ln().max(0.0);
-        let mut steps = 0u64;
-        let mut wants_hand = false;
-        loop {
-            if switches > MAX_SWITCHES {
-                out.diag.closed_early += 1;
-                break;
-            }
-            if steps >= 4 * s.max_steps_per_region {
-                out.diag.closed_early += 1;
-                break;
-            }
-            if !wants_hand && (t > t_max || steps >= s.max_steps_per_region) {
-                // The point's remaining domain is below the resolution: explore towards the
-                // deepest point left instead (target invariance).
-                let best = deepest_left(&frame, &chain);
-                switches += 1;
-                if best.0 > 2.0 * cell {
-                    // Hand the branch on: the rest of the domain becomes a region of its own
-                    // (a short chain is a fast one). Between loops at once; within a loop only
-                    // once the excursion in progress has ended, in this frame: the rest of an
-                    // excursion does not depend on the target (target invariance), while a
-                    // new frame centred far from the tip resolves it badly (the loop's two
-                    // ends, seen from there, can be 10⁻⁹ apart in angle). An excursion is in
-                    // progress as soon as it has drawn a point: θ can linger near an end for
-                    // long while the plane does not yet allow the loop to close.
-                    let in_loop = !pieces.last().expect("piece").points.is_empty();
-                    if in_loop {
-                        wants_hand = true;
-                        continue;
-                    }
-                    handed = Some(best.2);
-                    break;
-                }
-                if steps >= s.max_steps_per_region {
-                    out.diag.closed_early += 1;
-                    break;
-                }
-                {
-                    // Nothing left wider than the resolution: finish the excursion in progress
-                    // towards the same point, then stop.
-                    exhausted = true;
-                    t_max = f64::INFINITY;
-                    continue;
-                }
-            }
-            let a_abs = theta.abs();
-            let d_end = a_abs.min(TWO_PI - a_abs).max(0.0);
-            // Within a few slits' footprints of the end the push is not resolved further,
-            // but only where the plane allows the end: a loop closes (θ → ±2π, and for κ ≤ 4
-            // also θ → 0) where it started — the start of this excursion, or for a loop
-            // continued in a pocket its first point; a κ > 4 arch lands (θ → 0) where the tip
-            // touches what was there before (the region's boundary or the trace of 20 steps
-            // ago). Until then θ's approach to the end is resolved (steps of d²/16κ), so the
-            // end is not reached early.
-            let loop_start = match (r.cont, pieces.len()) {
-                (Some(c), 1) => c.p,
-                _ => pieces.last().expect("piece").start,
-            };
-            let closes = !big || a_abs > PI;
-            let allowed = if closes {
-                (prev - loop_start).norm() <= 2.0 * s.spacing
-            } else {
-                ras.near_old(prev, steps.saturating_sub(20) as i32 + 1)
-            };
-            let d = if allowed {
-                d_end.max(4.0 * (kappa * h_sp).sqrt())
-            } else {
-                d_end
-            };
-            let h_end = d * d / (s.end_resolution * kappa);
-            let mut h = s.h_max.min(h_sp).min(h_end).max(s.h_min);
-            // Shorten the step until the slits it may draw (at ξ and two standard deviations of
-            // θ's increment either side) end within two spacings of the tip in the plane: the
-            // frame can be compressed where the tip goes next far more than where it was.
-            let len = chain.len();
-            for _ in 0..8 {
-                let spread = 2.0 * (kappa * h).sqrt();
-                let mut worst: f64 = 0.0;
-                for dx in [0.0, -spread, spread] {
-                    let cand = RadialStep::new(xi + dx, h).tip();
-                    let z = frame.to_plane(chain.apply_prefix(len, cand));
-                    worst = worst.max((z - prev).norm());
-                }
-                if worst.is_nan() || worst <= 2.0 * s.spacing || h <= s.h_min {
-                    break;
-                }
-                h = (h * 0.5 * (2.0 * s.spacing / worst).powi(2)).max(s.h_min);
-            }
-            let a = self.process.step(theta, h, rng);
-            let side = if theta > 0.0 || (theta == 0.0 && a.theta >= 0.0) {
-                -1.0
-            } else {
-                1.0
-            };
-            let step = RadialStep::new(xi, h);
-            eta = step.forward_boundary_angle(eta, side);
-            chain.push(DiskMap::Step {
-                step,
-                rot: Complex64::new(1.0, 0.0),
-            });
-            let tip_d = chain
-                .tip_point(chain.len() - 1)
-                .unwrap_or(Complex64::new(1.0, 0.0));
-            let tip = frame.to_plane(tip_d);
-            if !ras.inside(tip) {
-                // The map lost the point (the zipper's precision near a crowded stretch of
-                // boundary): stop this branch and drop the loop in progress.
-                out.diag.lost_points += 1;
-                let last = pieces.last_mut().expect("piece");
-                last.points.clear();
-                last.end = PieceEnd::Cut;
-                last.continues = false;
-                break;
-            }
-            t += h;
-            steps += 1;
-            ras.block_segment(prev, tip, steps.min(i32::MAX as u64 - 1) as i32);
-            let disp = (tip - prev).norm();
-            if disp > 3.0 * s.spacing {
-                out.diag.long_segments += 1;
-            }
-            // The step that would move the tip by about the spacing (displacement ∝ √h), growing
-            // by at most a factor 2 a step.
-            let h_geo = if disp > 0.0 {
-                0.7 * h * (s.spacing / disp).powi(2)
-            } else {
-                f64::INFINITY
-            };
-            // Only steps of the spatial length measure it (shorter steps near an end of θ move
-            // the tip by the force point's push as much as by the slit).
-            if h >= 0.5 * h_sp {
-                h_sp = h_geo.min(2.0 * h_sp).clamp(s.h_min, s.h_max);
-            }
-            prev = tip;
-            pieces
-                .last_mut()
-                .expect("at least one piece")
-                .points
-                .push(tip);
-            match a.visit {
-                EndVisit::None => {
-                    theta = a.theta;
-                    xi = eta + theta;
-                }
-                EndVisit::Zero => {
-                    pieces.last_mut().expect("piece").end = PieceEnd::Zero;
-                    if exhausted {
-                        break;
-                    }
-                    if wants_hand {
-                        let best = deepest_left(&frame, &chain);
-                        if best.0 > 2.0 * cell {
-                            handed = Some(best.2);
-                        }
-                        break;
-                    }
-                    // The arc between the force point and the tip (the loop's inner side for
-                    // κ ≤ 4, the pocket under the arch for κ > 4) is cut off: the next excursion
-                    // grows from the end of that arc on its own side, never inside it. The tip
-                    // is where the loop closed (κ ≤ 4) or landed (κ > 4), and the next one
-                    // starts there.
-                    let ccw_end_is_tip = theta > 0.0;
-                    let grows_ccw = a.theta >= 0.0;
-                    if grows_ccw == ccw_end_is_tip {
-                        eta = step.xi;
-                    }
-                    theta = a.theta;
-                    xi = eta + theta;
-                    let start = tip;
-                    pieces.push(Piece {
-                        start,
-                        points: Vec::new(),
-                        end: PieceEnd::Cut,
-                        continues: false,
-                    });
-                }
-                EndVisit::Full => {
-                    pieces.last_mut().expect("piece").end = PieceEnd::Full;
-                    out.log_cr_final = Some(log_cr0 - t);
-                    out.seen_from = Some(centre);
-                    break;
-                }
-            }
-        }
-        out.diag.steps = steps;
-        drop(chain);
-        // What the branch cut off.
-        ras.seal();
-        let comps = ras.components();
-        let mut arch_of: Vec<Option<ChildKind>> = vec![None; comps.len()];
-        if let Some(z) = handed {
-            match ras.label_at(z) {
-                Some(k) => arch_of[k] = Some(ChildKind::Handed),
-                None => out.diag.closed_early += 1,
-            }
-        }
-        if big {
-            for (i, piece) in pieces.iter().enumerate() {
-                if piece.end != PieceEnd::Zero || piece.points.len() < 2 {
-                    continue;
-                }
-                let mut pts = vec![piece.start];
-                pts.extend_from_slice(&piece.points);
-                let mut found = None;
-                for w in pts.windows(2).take(12) {
-                    let (a, b) = (w[0], w[1]);
-                    let len = (b - a).norm();
-                    if len == 0.0 {
-                        continue;
-                    }
-                    let n = Complex64::new(0.0, 1.0) * (b - a) / len;
-                    if let Some(k) = ras.label_at(0.5 * (a + b) + n * (2.0 * cell)) {
-                        found = Some(k);
-                        break;
-                    }
-                }
-                match found {
-                    Some(k) if arch_of[k].is_none() => arch_of[k] = Some(ChildKind::Arch(i)),
-                    _ => out.orphan_arches.push(i),
-                }
-            }
-        }
-        let eps = s.min_size;
-        for (k, c) in comps.iter().enumerate() {
-            let size = c.diagonal(cell);
-            let kind = match arch_of[k].clone() {
-                Some(ChildKind::Handed) => {
-                    if size < 4.0 * cell {
-                        out.diag.small_regions += 1;
-                        continue;
-                    }
-                    ChildKind::Handed
-                }
-                Some(ChildKind::Arch(i)) => {
-                    let piece = &pieces[i];
-                    let mut lo = c.lo(&ras);
-                    let mut hi = c.hi(&ras);
-                    for z in piece.points.iter().chain(std::iter::once(&piece.start)) {
-                        lo = Complex64::new(lo.re.min(z.re), lo.im.min(z.im));
-                        hi = Complex64::new(hi.re.max(z.re), hi.im.max(z.im));
-                    }
-                    if size < 4.0 * cell || (hi - lo).norm() < eps {
-                        out.diag.small_regions += 1;
-                        out.orphan_arches.push(i);
-                        continue;
-                    }
-                    ChildKind::Arch(i)
-                }
-                Some(ChildKind::Fresh) | None => {
-                    // No loop of diameter ε is looked for in a region narrower than ε/5 (or
-                    // than six cells): a CLE loop is rarely much longer than the width of the
-                    // region that holds it.
-                    let width = 2.0 * c.inradius as f64 * cell;
-                    if size < eps || width < (0.2 * eps).max(6.0 * cell) {
-                        out.diag.small_regions += 1;
-                        continue;
-                    }
-                    ChildKind::Fresh
-                }
-            };
-            let polygon = ras.contour(c.label);
-            if polygon.len() < 4 {
-                out.diag.small_regions += 1;
-                if let ChildKind::Arch(i) = kind {
-                    out.orphan_arches.push(i);
-                }
-                continue;
-            }
-            out.diag.max_polygon = out.diag.max_polygon.max(polygon.len() as u64);
-            out.children.push(Child {
-                polygon,
-                centre: ras.centre(c.deepest),
-                kind,
-            });
-        }
-        out.pieces = pieces;
-        out
-    }
-}
-
-impl Region {
-    /// The whole disk, explored towards 0 (its address in the tree of regions is 1).
-    fn root() -> Region {
-        Region {
-            id: 1,
-            polygon: None,
-            centre: Complex64::new(0.0, 0.0),
-            depth: 0,
-            parent: None,
-            cont: None,
-            candidates: Vec::new(),
-        }
-    }
-}
-
-/// The point of the domain left to a branch with the largest conformal radius, among a
-/// polar grid of its frame: `(CR, point of D, point of the plane)`.
-fn deepest_left(frame: &Frame, chain: &DiskChain) -> (f64, Complex64, Complex64) {
-    let len = chain.len();
-    let back = |w: Complex64| frame.to_plane(chain.apply_prefix(len, w));
-    let mut best = (
-        f64::NEG_INFINITY,
-        Complex64::new(0.0, 0.0),
-        back(0.0.into()),
-    );
-    for &rad in &[0.0, 0.3, 0.6, 0.85, 0.95, 0.985, 0.995] {
-        let n = if rad == 0.0 { 1 } else { 32 };
-        for k in 0..n {
-            let w = Complex64::from_polar(rad, TWO_PI * (k as f64 + 0.5) / n as f64);
-            let dz = 1e-4 * (1.0 - rad);
-            let (z, z2) = (back(w), back(w + dz));
-            let cr = (1.0 - rad * rad) * (z2 - z).norm() / dz;
-            if cr.is_finite() && cr > best.0 {
-                best = (cr, w, z);
-            }
-        }
-    }
-    best
-}
-
-/// Depth and parent of a fresh region: inside one of its candidate loops, or as its parent
-/// region.
-fn classify(r: &mut Region, loops: &[LoopRec]) {
-    for &c in &r.candidates {
-        let l = &loops[c];
-        if l.points.len() >= 3 && winding_number(&l.points, r.centre) != 0 {
-            r.depth = l.depth;
-            r.parent = Some(c);
-            break;
-        }
-    }
-    r.candidates.clear();
-}
-
-/// A child's address in the tree of regions, hashed (SplitMix64 finaliser).
-fn mix(parent: u64, k: u64) -> u64 {
-    let mut z = parent
-        .wrapping_mul(0x9E37_79B9_7F4A_7C15)
-        .wrapping_add(k.wrapping_add(1).wrapping_mul(0xD1B5_4A32_D192_ED03));
-    z = (z ^ (z >> 30)).wrapping_mul(0xBF58_476D_1CE4_E5B9);
-    z = (z ^ (z >> 27)).wrapping_mul(0x94D0_49BB_1331_11EB);
-    z ^ (z >> 31)
-}
-
-fn nearest_vertex(poly: &[Complex64], z: Complex64) -> Complex64 {
-    *poly
-        .iter()
-        .min_by(|a, b| (**a - z).norm_sqr().total_cmp(&(**b - z).norm_sqr()))
-        .unwrap_or(&z)
-}
-
-/// Longest segment of a closed polyline (closing segment included).
-fn max_gap(p: &[Complex64]) -> f64 {
-    let n = p.len();
-    (0..n)
-        .map(|k| (p[(k + 1) % n] - p[k]).norm())
-        .fold(0.0, f64::max)
-}
-
-fn bbox_diagonal(p: &[Complex64]) -> f64 {
-    if p.is_empty() {
-        return 0.0;
-    }
-    let (mut lo, mut hi) = (p[0], p[0]);
-    for z in p {
-        lo = Complex64::new(lo.re.min(z.re), lo.im.min(z.im));
-        hi = Complex64::new(hi.re.max(z.re), hi.im.max(z.im));
-    }
-    (hi - lo).norm()
 }
 
 /// Diameter of a point set, from its extent in 32 directions (within 0.5% of the exact value).
@@ -1087,451 +304,686 @@ pub fn diameter(p: &[Complex64]) -> f64 {
         .fold(0.0, f64::max)
 }
 
-/// A component of free cells.
-#[derive(Debug, Clone, Copy)]
-struct Component {
-    label: i32,
-    lo: (usize, usize),
-    hi: (usize, usize),
-    deepest: usize,
-    /// Distance of the deepest cell to the nearest blocked or outside cell, in cells.
-    inradius: u32,
+/// Largest distance between consecutive points of a closed polyline (closing segment included).
+pub fn largest_gap(p: &[Complex64]) -> f64 {
+    if p.len() < 2 {
+        return 0.0;
+    }
+    let n = p.len();
+    (0..n)
+        .map(|i| (p[(i + 1) % n] - p[i]).norm())
+        .fold(0.0, f64::max)
 }
 
-impl Component {
-    fn diagonal(&self, cell: f64) -> f64 {
-        let dx = (self.hi.0 - self.lo.0 + 1) as f64;
-        let dy = (self.hi.1 - self.lo.1 + 1) as f64;
-        cell * (dx * dx + dy * dy).sqrt()
+/// The points of a square grid of spacing `g` in the disk `|z| ≤ 1 − g/2`, row by row.
+pub fn grid_points(g: f64) -> Vec<Complex64> {
+    let r = 1.0 - 0.5 * g;
+    let n = (r / g).floor() as i64;
+    let mut v = Vec::new();
+    for j in -n..=n {
+        for i in -n..=n {
+            let z = Complex64::new(i as f64 * g, j as f64 * g);
+            if z.norm() <= r {
+                v.push(z);
+            }
+        }
     }
-    fn lo(&self, r: &Raster) -> Complex64 {
-        Complex64::new(r.x0 + self.lo.0 as f64 * r.c, r.y0 + self.lo.1 as f64 * r.c)
-    }
-    fn hi(&self, r: &Raster) -> Complex64 {
-        Complex64::new(
-            r.x0 + (self.hi.0 + 1) as f64 * r.c,
-            r.y0 + (self.hi.1 + 1) as f64 * r.c,
-        )
-    }
+    v
 }
 
-/// A raster of a region: cells are outside or blocked (−1), or free (0, then a label ≥ 1).
-#[derive(Debug, Clone)]
-struct Raster {
-    x0: f64,
-    y0: f64,
-    c: f64,
-    nx: usize,
-    ny: usize,
-    cells: Vec<i32>,
+// ---------------------------------------------------------------------------------------------
+// The recorder: chains shared between branches, the trace in the plane, closures.
+
+/// A finished branch's chain and trace (read by its descendants).
+struct Frozen {
+    parent: Option<Link>,
+    chain: DiskChain,
+    trace: Vec<Complex64>,
 }
 
-impl Raster {
-    fn empty(lo: Complex64, hi: Complex64, c: f64) -> Raster {
-        let x0 = lo.re - c;
-        let y0 = lo.im - c;
-        let nx = ((hi.re - x0) / c).ceil() as usize + 2;
-        let ny = ((hi.im - y0) / c).ceil() as usize + 2;
-        Raster {
-            x0,
-            y0,
+/// A branch's segment of the tree; its contents are set when the branch finishes (its
+/// children run only after that).
+struct Seg {
+    id: u64,
+    frozen: OnceLock<Frozen>,
+}
+
+/// Where a branch leaves its parent: the parent's segment and the lengths of its chain and
+/// trace at that moment.
+#[derive(Clone)]
+struct Link {
+    seg: Arc<Seg>,
+    maps: usize,
+    trace: usize,
+}
+
+/// A position on a branch's path: a trace point of a segment.
+#[derive(Clone)]
+struct Pos {
+    seg: Arc<Seg>,
+    idx: usize,
+}
+
+/// One loop closure as seen by a branch.
+struct Closure {
+    loop_id: u64,
+    /// (segment, trace index) of the loop's start.
+    start: (u64, usize),
+    inside: Vec<(usize, f64)>,
+    /// The trace from the start to the closing point, when the closure returned to its start and
+    /// is at least ε across (otherwise empty).
+    points: Vec<Complex64>,
+    /// Distance from the closing point to the start.
+    gap: f64,
+    diameter: f64,
+}
+
+/// What all branches of one configuration share.
+struct Shared {
+    kappa: f64,
+    settings: LoopSettings,
+    min_log_cr: f64,
+    closures: RefCell<Vec<Closure>>,
+    long_steps: RefCell<u64>,
+    stalled: RefCell<u64>,
+}
+
+struct PathRec<'a> {
+    sh: &'a Shared,
+    me: Arc<Seg>,
+    parent: Option<Link>,
+    /// The branch's maps in its *reference frame* (see [`PathRec::map`]).
+    chain: DiskChain,
+    trace: Vec<Complex64>,
+    /// From the reference frame to the explorer's (driver's) frame.
+    d: Mobius,
+    /// `d` and the chain's length before the last step.
+    d_before_step: Mobius,
+    maps_before_step: usize,
+    /// The last visit of θ to an end, and the one before it.
+    last_visit: Pos,
+    prev_visit: Pos,
+    /// Whether the last step visited an end.
+    visit_in_last_step: bool,
+    /// Whether the current step is the second half of one that visited an end.
+    second_half: bool,
+    /// Start of the loop that the current step closed.
+    closing_start: Option<Pos>,
+    /// log of the map's scale at the tip (plane length per unit of driver-frame length).
+    log_scale: f64,
+    max_h: f64,
+    /// Consecutive steps that the spacing wanted shorter than the explorer's smallest step.
+    unresolved_run: u32,
+    /// The branch's own steps, and those that moved the tip more than three spacings.
+    own_steps: u64,
+    own_long: u64,
+}
+
+/// A branch also stops when more than this many of its steps, and more than a tenth of them,
+/// moved the tip more than three spacings.
+const LONG_STEPS_MAX: u64 = 200;
+
+/// A branch stops after this many consecutive steps too short to resolve (its tip is in a
+/// part of the domain that its frame squeezes below the spacing; counted as stalled).
+const STALL_STEPS: u32 = 2000;
+/// Radial time of a probe step after a large change of frame.
+const PROBE_H: f64 = 1e-6;
+/// The explorer's smallest step (its `h_min` default).
+const H_FLOOR: f64 = 1e-10;
+
+/// The reference frame is changed when its centre sees the tip with a Poisson kernel above
+/// this (relative to the driver's, which is 1)…
+const REF_KERNEL_MAX: f64 = 0.05;
+/// … to a point this far out on the driver frame's radius opposite the tip (Poisson kernel
+/// (1 − r)/(1 + r) ≈ 0.01 at the tip).
+const REF_RADIUS: f64 = 0.98;
+/// … or when `1 − |centre|²` in the driver frame falls below this.
+const REF_INSIDE_MIN: f64 = 1e-3;
+
+impl<'a> PathRec<'a> {
+    fn root(sh: &'a Shared) -> Self {
+        let me = Arc::new(Seg {
+            id: 0,
+            frozen: OnceLock::new(),
+        });
+        let start = Pos {
+            seg: me.clone(),
+            idx: 0,
+        };
+        PathRec {
+            sh,
+            me,
+            parent: None,
+            chain: DiskChain::new(),
+            // The exploration starts at the boundary point 1 (the tip and force point of the
+            // root frame, which is the disk itself).
+            trace: vec![Complex64::new(1.0, 0.0)],
+            d: Mobius::identity(),
+            d_before_step: Mobius::identity(),
+            maps_before_step: 0,
+            last_visit: start.clone(),
+            prev_visit: start,
+            visit_in_last_step: false,
+            second_half: false,
+            closing_start: None,
+            log_scale: 0.0,
+            max_h: f64::INFINITY,
+            unresolved_run: 0,
+            own_steps: 0,
+            own_long: 0,
+        }
+    }
+
+    /// Move the reference frame's centre to the point `−REF_RADIUS·tip` of the driver frame
+    /// (`tip` on the unit circle), by an automorphism appended to the chain.
+    fn recentre(&mut self, tip: Complex64) {
+        let c = self.d.invert(-REF_RADIUS * tip);
+        let change = Mobius {
             c,
-            nx,
-            ny,
-            cells: vec![-1; nx * ny],
-        }
-    }
-
-    fn disk(c: f64) -> Raster {
-        let mut r = Raster::empty(Complex64::new(-1.0, -1.0), Complex64::new(1.0, 1.0), c);
-        for j in 0..r.ny {
-            for i in 0..r.nx {
-                if r.centre_of(i, j).norm() < 1.0 - 0.5 * c {
-                    r.cells[j * r.nx + i] = 0;
-                }
-            }
-        }
-        r
-    }
-
-    /// Cells whose centre is inside the polygon (even–odd rule on each row).
-    fn polygon(p: &[Complex64], c: f64) -> Raster {
-        let (mut lo, mut hi) = (p[0], p[0]);
-        for z in p {
-            lo = Complex64::new(lo.re.min(z.re), lo.im.min(z.im));
-            hi = Complex64::new(hi.re.max(z.re), hi.im.max(z.im));
-        }
-        let mut r = Raster::empty(lo, hi, c);
-        let n = p.len();
-        let mut xs = Vec::new();
-        for j in 0..r.ny {
-            let y = r.y0 + (j as f64 + 0.5) * c;
-            xs.clear();
-            for k in 0..n {
-                let (a, b) = (p[k], p[(k + 1) % n]);
-                if (a.im <= y) != (b.im <= y) {
-                    xs.push(a.re + (y - a.im) / (b.im - a.im) * (b.re - a.re));
-                }
-            }
-            xs.sort_by(f64::total_cmp);
-            for pair in xs.chunks(2) {
-                if pair.len() < 2 {
-                    break;
-                }
-                let i0 = ((pair[0] - r.x0) / c - 0.5).ceil().max(0.0) as usize;
-                let i1 = ((pair[1] - r.x0) / c - 0.5).floor();
-                if i1 < 0.0 {
-                    continue;
-                }
-                for i in i0..=(i1 as usize).min(r.nx - 1) {
-                    r.cells[j * r.nx + i] = 0;
-                }
-            }
-        }
-        r
-    }
-
-    fn centre_of(&self, i: usize, j: usize) -> Complex64 {
-        Complex64::new(
-            self.x0 + (i as f64 + 0.5) * self.c,
-            self.y0 + (j as f64 + 0.5) * self.c,
-        )
-    }
-
-    fn centre(&self, k: usize) -> Complex64 {
-        self.centre_of(k % self.nx, k / self.nx)
-    }
-
-    fn index_of(&self, z: Complex64) -> Option<(usize, usize)> {
-        let fi = ((z.re - self.x0) / self.c).floor();
-        let fj = ((z.im - self.y0) / self.c).floor();
-        if fi < 0.0 || fj < 0.0 || fi >= self.nx as f64 || fj >= self.ny as f64 || !fi.is_finite() {
-            return None;
-        }
-        Some((fi as usize, fj as usize))
-    }
-
-    /// Whether a cell within two cells of `z` is outside the region or was blocked before step
-    /// `limit`.
-    fn near_old(&self, z: Complex64, limit: i32) -> bool {
-        let Some((i, j)) = self.index_of(z) else {
-            return true;
+            rot: Complex64::new(1.0, 0.0),
         };
-        for dj in -2i64..=2 {
-            for di in -2i64..=2 {
-                let (ii, jj) = (i as i64 + di, j as i64 + dj);
-                if ii < 0 || jj < 0 || ii >= self.nx as i64 || jj >= self.ny as i64 {
-                    return true;
-                }
-                let v = self.cells[jj as usize * self.nx + ii as usize];
-                if v == -1 || (v >= 1 && v < limit) {
-                    return true;
-                }
-            }
-        }
-        false
+        self.chain.push(DiskMap::Mobius { c, rot: change.rot });
+        self.d = self.d.after(&change.inverse());
     }
 
-    /// Block the free cells along the segment and their eight neighbours with `stamp` (≥ 1).
-    fn block_segment(&mut self, a: Complex64, b: Complex64, stamp: i32) {
-        let n = ((b - a).norm() / (0.5 * self.c)).ceil().clamp(1.0, 1e6) as usize;
-        for k in 0..=n {
-            let z = a + (b - a) * (k as f64 / n as f64);
-            if let Some((i, j)) = self.index_of(z) {
-                for dj in -1i64..=1 {
-                    for di in -1i64..=1 {
-                        let (ii, jj) = (i as i64 + di, j as i64 + dj);
-                        if ii >= 0 && jj >= 0 && (ii as usize) < self.nx && (jj as usize) < self.ny
-                        {
-                            let v = &mut self.cells[jj as usize * self.nx + ii as usize];
-                            if *v == 0 {
-                                *v = stamp;
-                            }
-                        }
-                    }
-                }
-            }
+    /// A point of the current frame taken back to the disk through the whole ancestry.
+    fn to_plane(&self, z: Complex64, own_maps: usize) -> Complex64 {
+        let mut z = self.chain.apply_prefix(own_maps, z);
+        let mut link = self.parent.clone();
+        while let Some(l) = link {
+            let f = l
+                .seg
+                .frozen
+                .get()
+                .expect("a parent finishes before its children run");
+            z = f.chain.apply_prefix(l.maps, z);
+            link = f.parent.clone();
         }
+        z
     }
 
-    /// Whether `z` lies in a cell of the region (free or blocked, not outside) or next to one.
-    fn inside(&self, z: Complex64) -> bool {
-        let Some((i, j)) = self.index_of(z) else {
-            return false;
-        };
-        for dj in -1i64..=1 {
-            for di in -1i64..=1 {
-                let (ii, jj) = (i as i64 + di, j as i64 + dj);
-                if ii >= 0
-                    && jj >= 0
-                    && ii < self.nx as i64
-                    && jj < self.ny as i64
-                    && self.cells[jj as usize * self.nx + ii as usize] != -1
-                {
-                    return true;
-                }
-            }
+    /// The trace from `start` to the current tip.
+    fn path_from(&self, start: &Pos) -> Vec<Complex64> {
+        let mut parts: Vec<Vec<Complex64>> = Vec::new();
+        if Arc::ptr_eq(&start.seg, &self.me) {
+            return self.trace[start.idx.min(self.trace.len())..].to_vec();
         }
-        false
+        parts.push(self.trace.clone());
+        let mut link = self.parent.clone();
+        while let Some(l) = link {
+            let f = l.seg.frozen.get().expect("parent finished");
+            let end = l.trace.min(f.trace.len());
+            if Arc::ptr_eq(&start.seg, &l.seg) {
+                parts.push(f.trace[start.idx.min(end)..end].to_vec());
+                break;
+            }
+            parts.push(f.trace[..end].to_vec());
+            link = f.parent.clone();
+        }
+        parts.into_iter().rev().flatten().collect()
     }
 
-    /// End of an exploration: every blocked cell becomes a wall (−1), whatever its stamp.
-    fn seal(&mut self) {
-        for v in self.cells.iter_mut() {
-            if *v != 0 {
-                *v = -1;
+    fn pos_now(&self) -> Pos {
+        if self.trace.is_empty() {
+            // A child before its first step: its position is its parent's at the split.
+            let l = self.parent.as_ref().expect("a child has a parent");
+            Pos {
+                seg: l.seg.clone(),
+                idx: l.trace - 1,
+            }
+        } else {
+            Pos {
+                seg: self.me.clone(),
+                idx: self.trace.len() - 1,
             }
         }
-    }
-
-    fn label_at(&self, z: Complex64) -> Option<usize> {
-        let (i, j) = self.index_of(z)?;
-        let l = self.cells[j * self.nx + i];
-        (l >= 1).then(|| l as usize - 1)
-    }
-
-    /// Label the 4-connected components of free cells (in scan order) and find each one's
-    /// deepest cell (largest distance to a blocked or outside cell, 8-neighbour steps).
-    fn components(&mut self) -> Vec<Component> {
-        let (nx, ny) = (self.nx, self.ny);
-        // Distance to the nearest non-free cell, by breadth-first search.
-        let mut dist = vec![u32::MAX; nx * ny];
-        let mut q = VecDeque::new();
-        for (k, (d, &c)) in dist.iter_mut().zip(&self.cells).enumerate() {
-            if c < 0 {
-                *d = 0;
-                q.push_back(k);
-            }
-        }
-        while let Some(k) = q.pop_front() {
-            let (i, j) = ((k % nx) as i64, (k / nx) as i64);
-            for dj in -1i64..=1 {
-                for di in -1i64..=1 {
-                    let (ii, jj) = (i + di, j + dj);
-                    if ii < 0 || jj < 0 || ii >= nx as i64 || jj >= ny as i64 {
-                        continue;
-                    }
-                    let kk = jj as usize * nx + ii as usize;
-                    if dist[kk] == u32::MAX {
-                        dist[kk] = dist[k] + 1;
-                        q.push_back(kk);
-                    }
-                }
-            }
-        }
-        let mut comps = Vec::new();
-        let mut stack = Vec::new();
-        for k0 in 0..nx * ny {
-            if self.cells[k0] != 0 {
-                continue;
-            }
-            let label = comps.len() as i32 + 1;
-            let mut c = Component {
-                label,
-                lo: (k0 % nx, k0 / nx),
-                hi: (k0 % nx, k0 / nx),
-                deepest: k0,
-                inradius: 0,
-            };
-            self.cells[k0] = label;
-            stack.push(k0);
-            while let Some(k) = stack.pop() {
-                let (i, j) = (k % nx, k / nx);
-                c.lo = (c.lo.0.min(i), c.lo.1.min(j));
-                c.hi = (c.hi.0.max(i), c.hi.1.max(j));
-                if dist[k] > dist[c.deepest] || (dist[k] == dist[c.deepest] && k < c.deepest) {
-                    c.deepest = k;
-                }
-                let nb = [
-                    (i > 0).then(|| k - 1),
-                    (i + 1 < nx).then(|| k + 1),
-                    (j > 0).then(|| k - nx),
-                    (j + 1 < ny).then(|| k + nx),
-                ];
-                for kk in nb.into_iter().flatten() {
-                    if self.cells[kk] == 0 {
-                        self.cells[kk] = label;
-                        stack.push(kk);
-                    }
-                }
-            }
-            c.inradius = dist[c.deepest];
-            comps.push(c);
-        }
-        comps
-    }
-
-    /// The outer boundary of component `label`: the cell edges between it and other cells,
-    /// linked counterclockwise (turning left first at a corner shared by two diagonal cells, so
-    /// that 4-connected components stay apart), as the polygon of the edges' midpoints.
-    fn contour(&self, label: i32) -> Vec<Complex64> {
-        let (nx, ny) = (self.nx, self.ny);
-        let is = |i: i64, j: i64| -> bool {
-            i >= 0 && j >= 0 && i < nx as i64 && j < ny as i64 && {
-                self.cells[j as usize * nx + i as usize] == label
-            }
-        };
-        // Outgoing edges per corner: bit d set for direction d (0 E, 1 N, 2 W, 3 S).
-        let w = nx + 1;
-        let mut out = std::collections::BTreeMap::<usize, u8>::new();
-        for j in 0..ny as i64 {
-            for i in 0..nx as i64 {
-                if !is(i, j) {
-                    continue;
-                }
-                let (iu, ju) = (i as usize, j as usize);
-                let mut add = |ci: usize, cj: usize, d: u8| {
-                    let key = cj * w + ci;
-                    *out.entry(key).or_insert(0) |= 1 << d;
-                };
-                if !is(i, j - 1) {
-                    add(iu, ju, 0);
-                }
-                if !is(i + 1, j) {
-                    add(iu + 1, ju, 1);
-                }
-                if !is(i, j + 1) {
-                    add(iu + 1, ju + 1, 2);
-                }
-                if !is(i - 1, j) {
-                    add(iu, ju + 1, 3);
-                }
-            }
-        }
-        let step = |key: usize, d: u8| -> usize {
-            match d {
-                0 => key + 1,
-                1 => key + w,
-                2 => key - 1,
-                _ => key - w,
-            }
-        };
-        let mut best: Vec<Complex64> = Vec::new();
-        let mut best_area = 0.0;
-        while let Some((&k0, _)) = out.iter().find(|(_, &m)| m != 0) {
-            let m0 = out[&k0];
-            let d0 = m0.trailing_zeros() as u8;
-            let (mut key, mut d) = (k0, d0);
-            let mut poly = Vec::new();
-            loop {
-                // Use the edge (key, d).
-                if let Some(m) = out.get_mut(&key) {
-                    *m &= !(1 << d);
-                }
-                let a = (key % w, key / w);
-                let next = step(key, d);
-                let b = (next % w, next / w);
-                poly.push(Complex64::new(
-                    self.x0 + 0.5 * (a.0 + b.0) as f64 * self.c,
-                    self.y0 + 0.5 * (a.1 + b.1) as f64 * self.c,
-                ));
-                key = next;
-                let m = out.get(&key).copied().unwrap_or(0);
-                let order = [(d + 1) % 4, d, (d + 3) % 4];
-                match order.iter().find(|&&e| m & (1 << e) != 0) {
-                    Some(&e) => d = e,
-                    None => break,
-                }
-            }
-            let area = crate::polygon::signed_area(&poly);
-            if area > best_area {
-                best_area = area;
-                best = poly;
-            }
-        }
-        best
     }
 }
 
-#[cfg(test)]
-mod tests {
-    use super::*;
+/// Trace point `i` of a finished segment.
+fn segment_point(seg: &Arc<Seg>, i: usize) -> Complex64 {
+    let f = seg.frozen.get().expect("parent finished");
+    if i < f.trace.len() {
+        f.trace[i]
+    } else {
+        f.trace.last().copied().unwrap_or(Complex64::new(1.0, 0.0))
+    }
+}
 
-    #[test]
-    fn contour_of_a_component_follows_its_cells() {
-        let mut r = Raster::disk(0.05);
-        r.block_segment(Complex64::new(-1.0, 0.0), Complex64::new(1.0, 0.0), 1);
-        r.seal();
-        let comps = r.components();
-        assert_eq!(comps.len(), 2, "the diameter cuts the disk in two");
-        for c in &comps {
-            let p = r.contour(c.label);
-            let a = crate::polygon::signed_area(&p);
-            // The polygon of edge midpoints differs from the union of the component's squares
-            // by at most a triangle of area c²/8 at each vertex (exact, by construction).
-            let cells = r.cells.iter().filter(|&&v| v == c.label).count() as f64;
-            let c2 = 0.05 * 0.05;
-            assert!(
-                (a - cells * c2).abs() <= p.len() as f64 * c2 / 8.0 + 1e-12,
-                "area {a}, cells {}",
-                cells * c2
-            );
-            // Roughly half the disk each, less the band of blocked cells.
-            assert!(a > 1.2 && a < PI / 2.0, "area {a}");
-            assert!(winding_number(&p, r.centre(c.deepest)) == 1);
+impl<'a> Recorder for PathRec<'a> {
+    const TRACES: bool = true;
+
+    /// The explorer's maps are taken in the driver's frame, centred near the tip, where every
+    /// step is a large slit; composed as they are, no block of the chain would keep a usable
+    /// series. So the branch keeps its chain in a *reference frame* centred far from the tip
+    /// (seen from there the tip has a Poisson kernel of at most [`REF_KERNEL_MAX`] relative
+    /// to the driver's view): a change of driver only changes `d`, and each step enters the
+    /// chain as a [`DiskMap::Conjugated`] map, whose slit is small.
+    fn map(&mut self, m: DiskMap, tip_before: Complex64) {
+        match m {
+            DiskMap::Mobius { c, rot } => {
+                let mm = Mobius { c, rot };
+                // The scale at the tip is divided by |M'(tip)|.
+                let st = mm.stretch(tip_before);
+                if st.is_finite() && st > 0.0 {
+                    self.log_scale -= st.ln();
+                }
+                // After a large change of frame (a new branch's first frame, centred in a
+                // region that was a sliver of the old one) the scale carried through it is
+                // not to be trusted: the next step is a short probe that measures it.
+                if !(st > 0.1 && st < 10.0) || self.trace.is_empty() {
+                    self.max_h = self.max_h.min(PROBE_H);
+                }
+                self.d = mm.after(&self.d);
+            }
+            DiskMap::Step { step, rot } => {
+                if self.trace.is_empty() {
+                    // A new branch: its domain is a sliver of its parent's reference frame
+                    // (it was cut off there), where slits would be below the precision; centre
+                    // the reference frame inside its own domain before its first step.
+                    self.recentre(tip_before);
+                }
+                self.d_before_step = self.d;
+                self.maps_before_step = self.chain.len();
+                let n = self.chain.len();
+                let tip = self.to_plane(self.d.invert(step.tip()), n);
+                self.trace.push(tip);
+                let w0 = rot * step.forward(self.d.apply(Complex64::new(0.0, 0.0)));
+                self.chain.push(DiskMap::Conjugated {
+                    step,
+                    rot,
+                    d: self.d,
+                    w0,
+                });
+                self.d = Mobius {
+                    c: -w0,
+                    rot: Complex64::new(1.0, 0.0),
+                };
+            }
+            DiskMap::Tilted { .. } | DiskMap::Conjugated { .. } => {
+                unreachable!("the CLE explorer takes radial steps only")
+            }
         }
     }
 
-    #[test]
-    fn the_zipper_frame_of_a_raster_region_maps_its_centre_and_stays_inside() {
-        // A region as the sampler makes them: a component of the raster of the disk cut by a
-        // chord, its contour, and the geodesic zipper onto D with the deepest cell at 0.
-        let mut r = Raster::disk(0.01);
-        r.block_segment(Complex64::new(-1.0, 0.3), Complex64::new(1.0, 0.3), 1);
-        r.seal();
-        let comps = r.components();
-        let big = comps.iter().max_by_key(|c| c.inradius).unwrap();
-        let poly = r.contour(big.label);
-        let centre = r.centre(big.deepest);
-        let z = GeodesicZipper::new(&poly, centre).unwrap();
-        assert!(z.to_disk(centre).norm() < 1e-9);
-        for k in 0..64 {
-            let w = Complex64::from_polar(0.99, TWO_PI * k as f64 / 64.0);
-            let p = z.from_disk(w);
-            assert!(
-                winding_number(&poly, p) != 0,
-                "{w} ↦ {p} outside the region"
-            );
-            assert!(r.inside(p));
+    fn stepped(&mut self, visit: EndVisit, h: f64, theta: f64) {
+        let s = &self.sh.settings;
+        // Keep the reference centre far from the tip.
+        let tip = Complex64::from_polar(1.0, theta);
+        let r = self.d.apply(Complex64::new(0.0, 0.0));
+        let inside = 1.0 - r.norm_sqr();
+        let kernel = inside / (tip - r).norm_sqr();
+        // The centre is also moved when the flow has pushed it near the circle, where the
+        // automorphisms would lose precision.
+        if kernel > REF_KERNEL_MAX || inside.is_nan() || inside <= REF_INSIDE_MIN {
+            self.recentre(tip);
         }
-        // CR ≥ distance to the boundary (Schwarz lemma) and ≤ 4 times it (Koebe 1/4 theorem).
-        let dist = poly
+        // The trace point of this step and the one before it.
+        let n = self.trace.len();
+        let now = self.trace[n - 1];
+        let before = if n >= 2 {
+            self.trace[n - 2]
+        } else {
+            let l = self.parent.as_ref();
+            match l {
+                Some(l) => segment_point(&l.seg, l.trace - 1),
+                None => now,
+            }
+        };
+        let moved = (now - before).norm();
+        self.own_steps += 1;
+        if moved > 3.0 * s.spacing {
+            *self.sh.long_steps.borrow_mut() += 1;
+            self.own_long += 1;
+        }
+        // Scale estimate: plane displacement per √(κh) of frame displacement; up at once,
+        // down slowly.
+        if moved > 0.0 && h > 0.0 {
+            let measured = (moved / (self.sh.kappa * h).sqrt()).ln();
+            self.log_scale = if measured > self.log_scale {
+                measured
+            } else {
+                0.7 * self.log_scale + 0.3 * measured
+            };
+        }
+        let scale = self.log_scale.exp();
+        let frame_len = s.spacing / scale;
+        self.max_h = (frame_len * frame_len / self.sh.kappa).max(1e-12);
+        if self.max_h < H_FLOOR {
+            self.unresolved_run += 1;
+        } else {
+            self.unresolved_run = 0;
+        }
+        self.visit_in_last_step = visit != EndVisit::None || self.second_half;
+        self.second_half = false;
+        self.closing_start = None;
+        if visit != EndVisit::None {
+            if visit == EndVisit::Full {
+                self.closing_start = Some(self.last_visit.clone());
+            }
+            let now = self.pos_now();
+            self.prev_visit = std::mem::replace(&mut self.last_visit, now);
+        }
+    }
+
+    fn max_h(&self) -> f64 {
+        self.max_h
+    }
+
+    fn half_step(&mut self) {
+        self.second_half = true;
+    }
+
+    fn min_log_cr(&self) -> f64 {
+        self.sh.min_log_cr
+    }
+
+    fn give_up(&self) -> bool {
+        let frame_ok = self.d.c.norm() < 1.0 && self.d.rot.re.is_finite();
+        let tip_ok = self
+            .trace
+            .last()
+            .is_none_or(|z| z.re.is_finite() && z.im.is_finite());
+        let broken = !frame_ok || !tip_ok;
+        if broken
+            || self.unresolved_run >= STALL_STEPS
+            || (self.own_long > LONG_STEPS_MAX && 10 * self.own_long > self.own_steps)
+        {
+            *self.sh.stalled.borrow_mut() += 1;
+            true
+        } else {
+            false
+        }
+    }
+
+    fn switch_ratio(&self) -> f64 {
+        self.sh.settings.switch_ratio
+    }
+
+    fn fork(&mut self, before_last_step: bool, branch: u64) -> Self {
+        let back = usize::from(before_last_step && !self.trace.is_empty());
+        let (maps, d) = if back == 1 {
+            (self.maps_before_step, self.d_before_step)
+        } else {
+            (self.chain.len(), self.d)
+        };
+        let parent = if self.trace.len() > back {
+            Link {
+                seg: self.me.clone(),
+                maps,
+                trace: self.trace.len() - back,
+            }
+        } else {
+            // Nothing of our own before the split point: the child leaves from our parent.
+            let l = self
+                .parent
+                .clone()
+                .expect("a branch without trace has a parent");
+            Link {
+                seg: l.seg,
+                maps: l.maps,
+                trace: l.trace,
+            }
+        };
+        // A visit of the driver's θ to an end in the step that separated the points is not a
+        // visit for them: the tip met the force point only as seen from the driver's side (a
+        // loop that closed around them, or an arch that cut off their pocket with their own
+        // excursion still running). Their excursion started at the visit before.
+        let (last_visit, prev_visit) = if self.visit_in_last_step {
+            (self.prev_visit.clone(), self.prev_visit.clone())
+        } else {
+            (self.last_visit.clone(), self.prev_visit.clone())
+        };
+        PathRec {
+            sh: self.sh,
+            me: Arc::new(Seg {
+                id: branch,
+                frozen: OnceLock::new(),
+            }),
+            parent: Some(parent),
+            chain: DiskChain::new(),
+            trace: Vec::new(),
+            d,
+            d_before_step: d,
+            maps_before_step: 0,
+            last_visit,
+            prev_visit,
+            visit_in_last_step: false,
+            second_half: false,
+            closing_start: None,
+            log_scale: self.log_scale,
+            max_h: self.max_h,
+            unresolved_run: 0,
+            own_steps: 0,
+            own_long: 0,
+        }
+    }
+
+    fn closed(&mut self, loop_id: u64, inside: &[(usize, f64)]) {
+        let Some(start) = self.closing_start.take() else {
+            return;
+        };
+        let s = &self.sh.settings;
+        let pts = self.path_from(&start);
+        let gap = match (pts.first(), pts.last()) {
+            (Some(a), Some(b)) => (a - b).norm(),
+            _ => 0.0,
+        };
+        let diameter = diameter(&pts);
+        let keep = diameter >= s.min_size && gap <= s.close_gap * s.spacing;
+        let mut points = if keep { pts } else { Vec::new() };
+        if keep && points.len() > 1 {
+            points.pop(); // the closing point repeats the start
+        }
+        self.sh.closures.borrow_mut().push(Closure {
+            loop_id,
+            start: (start.seg.id, start.idx),
+            inside: inside.to_vec(),
+            points,
+            gap,
+            diameter,
+        });
+    }
+
+    fn finish(self) {
+        let _ = self.me.frozen.set(Frozen {
+            parent: self.parent,
+            chain: self.chain,
+            trace: self.trace,
+        });
+    }
+}
+
+/// Sampler of CLE_κ configurations (module docs).
+#[derive(Debug, Clone)]
+pub struct LoopSampler {
+    kappa: f64,
+    settings: LoopSettings,
+    explorer: CleExplorer,
+}
+
+impl LoopSampler {
+    /// A sampler of CLE_κ, 8/3 < κ < 8, with the given settings.
+    ///
+    /// Errors: [`Error::InvalidParameter`] for κ out of range or invalid settings.
+    pub fn new(kappa: f64, settings: LoopSettings) -> Result<Self> {
+        settings.validate()?;
+        let mut es = ExploreSettings::defaults(kappa, 10_000);
+        es.h_max = settings.h_max;
+        es.separation = settings.separation;
+        es.pinch = settings.pinch;
+        es.max_time = 1e6;
+        es.max_steps = settings.max_steps;
+        let explorer = CleExplorer::new(kappa, &grid_points(settings.grid), es)?;
+        Ok(LoopSampler {
+            kappa,
+            settings,
+            explorer,
+        })
+    }
+
+    /// The settings.
+    pub fn settings(&self) -> &LoopSettings {
+        &self.settings
+    }
+
+    /// κ.
+    pub fn kappa(&self) -> f64 {
+        self.kappa
+    }
+
+    /// The grid of target points.
+    pub fn grid(&self) -> &[Complex64] {
+        self.explorer.points()
+    }
+
+    /// Configuration `index` of a run with `seed` (a pure function of both).
+    pub fn sample(&self, seed: u64, index: u64) -> LoopConfiguration {
+        let sh = Shared {
+            kappa: self.kappa,
+            settings: self.settings,
+            min_log_cr: self.settings.stop_radius.ln(),
+            closures: RefCell::new(Vec::new()),
+            long_steps: RefCell::new(0),
+            stalled: RefCell::new(0),
+        };
+        let sample = self
+            .explorer
+            .sample_recorded(seed, index, 0, PathRec::root(&sh));
+        let closures = sh.closures.into_inner();
+        let mut diag = LoopDiagnostics {
+            grid_points: self.grid().len() as u64,
+            branches: sample.diagnostics.branches,
+            steps: sample.diagnostics.steps,
+            closures: closures.len() as u64,
+            long_steps: sh.long_steps.into_inner(),
+            stalled_branches: sh.stalled.into_inner(),
+            truncated: sample.diagnostics.steps >= self.settings.max_steps,
+            ..Default::default()
+        };
+        let loops = assemble(&self.settings, self.grid(), &sample, closures, &mut diag);
+        LoopConfiguration {
+            index,
+            loops,
+            diagnostics: diag,
+        }
+    }
+}
+
+/// Group the closures into loops (module docs), keep those of diameter ≥ ε and the open ones
+/// that may be, and link parents through the points' nesting.
+fn assemble(
+    s: &LoopSettings,
+    grid: &[Complex64],
+    sample: &crate::cle::CleSample,
+    closures: Vec<Closure>,
+    diag: &mut LoopDiagnostics,
+) -> Vec<CleLoop> {
+    // Groups by common start, in order of first appearance.
+    let mut group_of_start: HashMap<(u64, usize), usize> = HashMap::new();
+    let mut groups: Vec<Vec<usize>> = Vec::new();
+    for (i, c) in closures.iter().enumerate() {
+        let g = *group_of_start.entry(c.start).or_insert_with(|| {
+            groups.push(Vec::new());
+            groups.len() - 1
+        });
+        groups[g].push(i);
+    }
+    // Each group: its own closure (returned to the start, the longest such), or none.
+    struct Found {
+        own: Option<usize>,
+        members: Vec<usize>,
+        diameter: f64,
+    }
+    let mut found: Vec<Found> = Vec::new();
+    let mut group_of_loop: HashMap<u64, usize> = HashMap::new();
+    for members in groups {
+        let own = members
             .iter()
-            .map(|q| (q - centre).norm())
-            .fold(f64::INFINITY, f64::min);
-        let cr = z.conformal_radius(centre);
-        assert!(
-            cr >= dist * 0.99 && cr <= 4.0 * dist,
-            "CR {cr}, distance {dist}"
-        );
+            .copied()
+            .filter(|&i| closures[i].gap <= s.close_gap * s.spacing)
+            .max_by_key(|&i| closures[i].points.len());
+        let diameter = members
+            .iter()
+            .map(|&i| closures[i].diameter)
+            .fold(0.0, f64::max);
+        for &i in &members {
+            group_of_loop.insert(closures[i].loop_id, found.len());
+        }
+        found.push(Found {
+            own,
+            members,
+            diameter,
+        });
     }
-
-    #[test]
-    fn a_configuration_does_not_depend_on_the_number_of_threads() {
-        let ls = LoopSampler::new(6.0, LoopSettings::defaults(0.4)).unwrap();
-        let one = rayon::ThreadPoolBuilder::new()
-            .num_threads(1)
-            .build()
-            .unwrap();
-        let two = rayon::ThreadPoolBuilder::new()
-            .num_threads(2)
-            .build()
-            .unwrap();
-        let a = one.install(|| ls.sample(3, 1));
-        let b = two.install(|| ls.sample(3, 1));
-        assert_eq!(a, b);
-        assert!(a.diagnostics.regions >= 1);
+    // Keep: closed loops of diameter ≥ ε; open groups whose partial traces reach ε.
+    let keep: Vec<bool> = found
+        .iter()
+        .map(|f| match f.own {
+            Some(i) => !closures[i].points.is_empty(),
+            None => f.diameter >= s.min_size,
+        })
+        .collect();
+    // Parent and depth from the points' nesting: the loop one level out around the same point.
+    let mut parent_group: Vec<Option<usize>> = vec![None; found.len()];
+    let mut depth: Vec<u32> = vec![0; found.len()];
+    for rec in &sample.points {
+        let mut prev: Option<usize> = None;
+        for l in &rec.loops {
+            if let Some(&g) = group_of_loop.get(&l.loop_id) {
+                if depth[g] == 0 {
+                    depth[g] = l.level as u32;
+                    parent_group[g] = prev;
+                }
+                prev = Some(g);
+            }
+        }
     }
-
-    #[test]
-    fn a_configuration_is_a_pure_function_of_seed_and_index() {
-        let s = LoopSettings::defaults(0.3);
-        let ls = LoopSampler::new(3.0, s).unwrap();
-        let a = ls.sample(7, 3);
-        let b = ls.sample(7, 3);
-        assert_eq!(a, b);
-        assert!(a.diagnostics.steps > 0);
-        let c = ls.sample(7, 4);
-        assert_ne!(a.diagnostics.steps, c.diagnostics.steps);
+    // Order: by depth, then by discovery.
+    let mut order: Vec<usize> = (0..found.len()).filter(|&g| keep[g]).collect();
+    order.sort_by_key(|&g| (depth[g], g));
+    let mut id_of_group: HashMap<usize, usize> = HashMap::new();
+    let mut out = Vec::new();
+    for g in order {
+        let f = &found[g];
+        let (points, closed, seen) = match f.own {
+            Some(i) => (closures[i].points.clone(), true, i),
+            None => (Vec::new(), false, f.members[0]),
+        };
+        if !closed {
+            diag.open_loops += 1;
+        }
+        let c = &closures[seen];
+        let (pt, log_cr) = c.inside[0];
+        let mut inside: Vec<usize> = f
+            .members
+            .iter()
+            .flat_map(|&i| closures[i].inside.iter().map(|p| p.0))
+            .collect();
+        inside.sort_unstable();
+        inside.dedup();
+        // The nearest kept ancestor (ancestors of a kept loop are larger, so normally kept).
+        let mut pg = parent_group[g];
+        while let Some(p) = pg {
+            if id_of_group.contains_key(&p) {
+                break;
+            }
+            pg = parent_group[p];
+        }
+        let id = out.len();
+        id_of_group.insert(g, id);
+        out.push(CleLoop {
+            id,
+            parent: pg.map(|p| id_of_group[&p]),
+            depth: depth[g].max(1),
+            diameter: if closed { diameter(&points) } else { 0.0 },
+            largest_gap: largest_gap(&points),
+            points,
+            closed,
+            seen_from: grid[pt],
+            log_cr,
+            points_inside: inside.len(),
+        });
     }
+    out
 }
