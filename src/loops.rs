@@ -41,9 +41,10 @@
 //! * κ = 3, seeds 1–3: 11, 9 and 10 s; 5, 11 and 5 closures; 3, 3 and 0 closed loops of
 //!   diameter ≥ ε and 2, 1, 0 open ones; 337, 470 and 3 steps longer than three spacings;
 //!   3, 4 and 1 stalled branches.
-//! * κ = 6, seeds 0–2: the exploration squeezes most grid points out before they are cut off
-//!   (one branch, no closure in a configuration; 87 s for another, mostly in very short
-//!   steps).
+//! * κ = 6, seeds 1–3: 1.6, 4.5 and 2.5 s; 1, 2 and 4 branches; 1, 0 and 2 closures; no
+//!   closed loop of diameter ≥ ε, 1, 0 and 1 open ones: the exploration squeezes most grid
+//!   points out before they are cut off (below). At ε = 0.5 one configuration (seed 0) took
+//!   87 s, mostly in very short steps; the tests cap the steps.
 //! * The root branch's trace, drawn alone, looks like a CLE exploration; the branches split
 //!   off it were the trouble, and three causes were found and fixed: (1) a new branch's frame
 //!   was a sliver of its parent's reference frame, where slits fall below the precision (its
