@@ -60,9 +60,16 @@
 //!   future of their own that the parent traces differently — or, when splits are allowed only
 //!   at real cut-offs, they fall below the precision and are lost (both tried: the first gives
 //!   overlapping traces, the second empty configurations). Choosing the deepest point as
-//!   driver instead of the nearest was tried and was worse. The next step is to carry the
-//!   points in a frame that does not squeeze them (the branch's reference frame, or their
-//!   plane positions mapped forward when they matter), so that a split happens only at a cut.
+//!   driver instead of the nearest was tried and was worse. The next step: carry a point
+//!   near the circle in *boundary-layer coordinates* `(α, s)`, `w = (1 − e^{−s}) e^{iα}`,
+//!   updated by the boundary correspondence and the derivative on the circle
+//!   (`α ← G(α)`, `s ← s − log|G'(e^{iα})|`, the same for automorphisms; first order in
+//!   `e^{−s}`, so exact to the precision wherever the slit is far compared with `e^{−s}`),
+//!   which keeps `1 − |w|` to full relative precision however deep the driver goes; and decide
+//!   cut-offs by θ's events, not by squeezing: at a visit of 0 the points that see the
+//!   excursion's arc as more than half their boundary (as at a visit of 2π) are cut off. For
+//!   4 < κ < 8 swallowings on the side away from the force point still need a rule (the arc
+//!   between the tip and the touched point collapses over a few steps).
 //!
 //! # Resolution, and what is approximate
 //! * The steps are cut so that the tip moves about `spacing` (default ε/6) in the plane: the
