@@ -38,13 +38,15 @@
 //! raster, and most large loops of κ > 4 were left open. Here nothing is rasterised and a
 //! loop is closed by its own trace, but the configurations are still not right. Measured on
 //! this machine (2 cores, ε = 0.2, defaults):
-//! * κ = 3, seeds 1–3: 11, 9 and 10 s; 5, 11 and 5 closures; 3, 3 and 0 closed loops of
-//!   diameter ≥ ε and 2, 1, 0 open ones; 337, 470 and 3 steps longer than three spacings;
-//!   3, 4 and 1 stalled branches.
-//! * κ = 6, seeds 1–3: 1.6, 4.5 and 2.5 s; 1, 2 and 4 branches; 1, 0 and 2 closures; no
-//!   closed loop of diameter ≥ ε, 1, 0 and 1 open ones: the exploration squeezes most grid
-//!   points out before they are cut off (below). At ε = 0.5 one configuration (seed 0) took
-//!   87 s, mostly in very short steps; the tests cap the steps.
+//! * κ = 3, seeds 2 and 3: 14.5 and 23.4 s, 13.6 and 14.7 MB peak; 3 and 1 closures; 2 and 0
+//!   closed loops of diameter ≥ ε, none open; 115 and 179 steps longer than three spacings;
+//!   4 and 2 stalled branches. Seed 1 did not finish in 12 minutes and had grown to 790 MB.
+//!   (With `h_max` = 0.04 seeds 1–3 took 11, 9 and 11 s at 13–14 MB and gave 3, 3 and 0
+//!   closed loops, 2, 1 and 0 open; but a κ = 6 configuration then ran past two minutes.)
+//! * κ = 6, seeds 1–3: 1.6, 4.6 and 2.5 s, 12.6–12.9 MB; 1, 2 and 4 branches; 1, 0 and 2
+//!   closures; no closed loop of diameter ≥ ε, 1, 0 and 1 open ones: the exploration
+//!   squeezes most grid points out before they are cut off (below). At ε = 0.5 one
+//!   configuration (seed 0) took 87 s, mostly in very short steps; the tests cap the steps.
 //! * The root branch's trace, drawn alone, looks like a CLE exploration; the branches split
 //!   off it were the trouble, and three causes were found and fixed: (1) a new branch's frame
 //!   was a sliver of its parent's reference frame, where slits fall below the precision (its
