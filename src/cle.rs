@@ -491,7 +491,9 @@ impl<R: Recorder> Branch<R> {
         };
         self.driver = k;
         let m = DiskMap::Mobius { c, rot };
-        self.rec.map(m, Complex64::from_polar(1.0, theta_before));
+        if R::TRACES {
+            self.rec.map(m, Complex64::from_polar(1.0, theta_before));
+        }
         m
     }
 
@@ -515,13 +517,11 @@ impl<R: Recorder> Branch<R> {
             p.w *= rot;
         }
         self.pts[driver].w = Complex64::new(0.0, 0.0);
-        let tip_before = Complex64::from_polar(1.0, self.theta);
-        self.theta = theta;
         if R::TRACES {
-            if let Some(m) = step.as_disk_map(rot) {
-                self.rec.map(m, tip_before);
-            }
+            let tip_before = Complex64::from_polar(1.0, self.theta);
+            self.rec.map(step.as_disk_map(rot), tip_before);
         }
+        self.theta = theta;
         rot
     }
 
@@ -574,7 +574,9 @@ impl<R: Recorder> Branch<R> {
             c: Complex64::new(0.0, 0.0),
             rot,
         };
-        self.rec.map(m, Complex64::from_polar(1.0, self.theta));
+        if R::TRACES {
+            self.rec.map(m, Complex64::from_polar(1.0, self.theta));
+        }
         self.theta = 0.0;
         m
     }

@@ -393,6 +393,8 @@ struct Shared {
     kappa: f64,
     settings: LoopSettings,
     min_log_cr: f64,
+    /// The explorer's smallest step.
+    h_floor: f64,
     closures: RefCell<Vec<Closure>>,
     long_steps: RefCell<u64>,
     stalled: RefCell<u64>,
@@ -438,8 +440,6 @@ const LONG_STEPS_MAX: u64 = 200;
 const STALL_STEPS: u32 = 2000;
 /// Radial time of a probe step after a large change of frame.
 const PROBE_H: f64 = 1e-6;
-/// The explorer's smallest step (its `h_min` default).
-const H_FLOOR: f64 = 1e-10;
 
 /// The reference frame is changed when its centre sees the tip with a Poisson kernel above
 /// this (relative to the driver's, which is 1)…
@@ -659,7 +659,7 @@ impl<'a> Recorder for PathRec<'a> {
         let scale = self.log_scale.exp();
         let frame_len = s.spacing / scale;
         self.max_h = (frame_len * frame_len / self.sh.kappa).max(1e-12);
-        if self.max_h < H_FLOOR {
+        if self.max_h < self.sh.h_floor {
             self.unresolved_run += 1;
         } else {
             self.unresolved_run = 0;
@@ -853,6 +853,7 @@ impl LoopSampler {
             kappa: self.kappa,
             settings: self.settings,
             min_log_cr: self.settings.stop_radius.ln(),
+            h_floor: self.explorer.settings().h_min,
             closures: RefCell::new(Vec::new()),
             long_steps: RefCell::new(0),
             stalled: RefCell::new(0),

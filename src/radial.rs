@@ -504,7 +504,7 @@ pub trait FrameStep {
     /// Image of a boundary angle; `side` decides the side of the slit's base.
     fn forward_boundary_angle(&self, alpha: f64, side: f64) -> f64;
     /// The step followed by the rotation `rot`, as a map of a [`crate::disk_fast::DiskChain`].
-    fn as_disk_map(&self, rot: Complex64) -> Option<crate::disk_fast::DiskMap>;
+    fn as_disk_map(&self, rot: Complex64) -> crate::disk_fast::DiskMap;
 }
 
 impl FrameStep for RadialStep {
@@ -517,8 +517,8 @@ impl FrameStep for RadialStep {
     fn forward_boundary_angle(&self, alpha: f64, side: f64) -> f64 {
         RadialStep::forward_boundary_angle(self, alpha, side)
     }
-    fn as_disk_map(&self, rot: Complex64) -> Option<crate::disk_fast::DiskMap> {
-        Some(crate::disk_fast::DiskMap::Step { step: *self, rot })
+    fn as_disk_map(&self, rot: Complex64) -> crate::disk_fast::DiskMap {
+        crate::disk_fast::DiskMap::Step { step: *self, rot }
     }
 }
 
@@ -532,7 +532,7 @@ impl FrameStep for TiltedRadialStep {
     fn forward_boundary_angle(&self, alpha: f64, side: f64) -> f64 {
         TiltedRadialStep::forward_boundary_angle(self, alpha, side)
     }
-    fn as_disk_map(&self, rot: Complex64) -> Option<crate::disk_fast::DiskMap> {
-        Some(crate::disk_fast::DiskMap::Tilted { step: *self, rot })
+    fn as_disk_map(&self, rot: Complex64) -> crate::disk_fast::DiskMap {
+        crate::disk_fast::DiskMap::Tilted { step: *self, rot }
     }
 }
