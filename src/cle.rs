@@ -422,6 +422,16 @@ pub(crate) trait Recorder: Sized {
     /// A loop with identifier `loop_id` closed around the points `inside` (`(point, log CR)`),
     /// the first of them the driver.
     fn closed(&mut self, _loop_id: u64, _inside: &[(usize, f64)]) {}
+    /// Whether the step would move the tip farther in the plane than the trace resolves.
+    fn too_far(&self, _step: &RadialStep) -> bool {
+        false
+    }
+    /// Whether the tip is still far, in the plane, from the force point.
+    fn far_from_force_point(&self) -> bool {
+        false
+    }
+    /// The branch restarted afresh at its tip after a swallowing step (a loop starts here).
+    fn restarted(&mut self) {}
     /// The branch has finished.
     fn finish(self) {}
 }
@@ -441,6 +451,15 @@ pub(crate) struct Branch<R: Recorder = ()> {
     pub(crate) before: Vec<Tracked>,
     /// What records the branch's geometry.
     pub(crate) rec: R,
+    /// Geometry only: the radial time of a swallowing first step still to take (a branch
+    /// split off before any disconnection; see `run_branch`).
+    pub(crate) swallow: Option<f64>,
+    /// `1 − |w|` of the driver in its parent's frame when the branch was split off (1 for the
+    /// root): its pseudo-hyperbolic closeness to the parent's driver.
+    pub(crate) closeness: f64,
+    /// Geometry only: the rest of a refined step, `(θ at its end, its radial time)`, latest
+    /// first (see `run_branch`).
+    pub(crate) pending: Vec<(f64, f64)>,
 }
 
 /// Harmonic measure, seen from `w`, of the boundary arc from the force point (angle 0) to the
@@ -462,6 +481,9 @@ impl<R: Recorder> Branch<R> {
     /// change as a forward map (the identity when `k` is already at 0).
     pub(crate) fn renormalise(&mut self, k: usize) -> DiskMap {
         let theta_before = self.theta;
+        // A refined step's remainder is in the old driver's angle; dropping it is harmless
+        // (the midpoints already drawn are samples of the process at their times).
+        self.pending.clear();
         let c = self.pts[k].w;
         let one = Complex64::new(1.0, 0.0);
         let tip = Complex64::from_polar(1.0, self.theta);
@@ -731,6 +753,9 @@ impl CleExplorer {
             rng: rng::substream(seed, Tag::Cle, index, base),
             before: Vec::new(),
             rec,
+            swallow: None,
+            closeness: 1.0,
+            pending: Vec::new(),
         };
         let k = root.fastest_any();
         root.renormalise(k);
@@ -782,6 +807,15 @@ impl CleExplorer {
             if R::TRACES && br.rec.give_up() {
                 br.pts.clear();
                 return spawned;
+            }
+            if let Some(h0) = br.swallow.take() {
+                let step = RadialStep::new(br.theta, h0);
+                let side = if br.theta >= 0.0 { -1.0 } else { 1.0 };
+                br.advance(&step, side, br.theta);
+                diag.steps += 1;
+                br.restart_inside();
+                br.rec.restarted();
+                continue;
             }
             if diag.steps >= s.max_steps {
                 for p in &br.pts {
@@ -840,7 +874,7 @@ impl CleExplorer {
                 continue;
             }
             let (k, pk) = br.fastest();
-            if k != br.driver && pk > br.rec.switch_ratio() {
+            if k != br.driver && pk > br.rec.switch_ratio() && br.pending.is_empty() {
                 br.renormalise(k);
                 diag.switches += 1;
             }
@@ -853,6 +887,25 @@ impl CleExplorer {
                     h = h.min(dist * dist / kappa);
                 }
             }
+            if R::TRACES {
+                // Geometry: near 2π (a loop about to close), steps no longer than the distance
+                // to it, so that the visit lands where the tip already is instead of jumping
+                // from it to the force point; and while the tip is still far from the force
+                // point in the plane (the short arc between them hides a stretch of it),
+                // steps of a third of that, which rarely visit.
+                // (Near 0 the steps stay as they are: there the tip's jumps to the force point
+                // are the exploration's own, between loops for κ ≤ 4 and at swallowings for
+                // κ > 4, and no loop is drawn across them.)
+                let d = TWO_PI - br.theta.abs();
+                if d < 1.0 {
+                    let cap = if br.rec.far_from_force_point() {
+                        d / 3.0
+                    } else {
+                        d
+                    };
+                    h = h.min(cap * cap / kappa);
+                }
+            }
             let floored = h < s.h_min;
             if floored {
                 h = s.h_min;
@@ -861,7 +914,36 @@ impl CleExplorer {
             br.before.clear();
             br.before.extend_from_slice(&br.pts);
             let theta_before = br.theta;
-            let mut st = self.process.step(br.theta, h, &mut br.rng);
+            let mut st = match br.pending.pop() {
+                Some((theta, h_left)) => {
+                    h = h_left;
+                    AngleStep {
+                        theta,
+                        visit: EndVisit::None,
+                    }
+                }
+                None => self.process.step(br.theta, h, &mut br.rng),
+            };
+            if R::TRACES && st.visit == EndVisit::None {
+                // Geometry: a step that would move the tip more than the recorder resolves is
+                // refined by Brownian-bridge midpoints of θ (away from the ends, where the
+                // drift is smooth and the bridge of θ/√κ is Brownian to O(h)); the second half
+                // waits on `pending`. The law of θ at the step's end is untouched.
+                loop {
+                    let sk = (kappa * h).sqrt();
+                    let ends = |t: f64| t.abs().min(TWO_PI - t.abs());
+                    if h < 2.0 * s.h_min || ends(theta_before).min(ends(st.theta)) < 3.0 * sk {
+                        break;
+                    }
+                    if !br.rec.too_far(&RadialStep::new(st.theta, h)) {
+                        break;
+                    }
+                    let z: f64 = br.rng.sample(StandardNormal);
+                    br.pending.push((st.theta, 0.5 * h));
+                    st.theta = 0.5 * (theta_before + st.theta) + 0.5 * sk * z;
+                    h *= 0.5;
+                }
+            }
             let visited = st.visit != EndVisit::None;
             if R::TRACES && visited {
                 // For geometry, the visit of an end must close what it closes in the chain too
@@ -898,33 +980,8 @@ impl CleExplorer {
             // their own angle then decides, through the exact scheme, whether the region they
             // are in is a loop interior (θ ≈ 2π: the next step closes it) or not.
             let (mut pinched, broken) = br.leaving(s.pinch);
-            let mut squeezed = Vec::new();
-            if R::TRACES {
-                // For geometry a split must be a disconnection: a branch that leaves early
-                // would trace a future of the region that its parent also traces, differently.
-                // Points are cut off at a visit of an end (a loop or an arch closed) or, for
-                // κ > 4, by a swallowing, which squeezes them onto the circle within one step;
-                // points that the flow squeezes slowly (far from the tip, seen from a driver
-                // deep in the domain) stay, until they are below the precision and are dropped.
-                // (Not sufficient yet: far points squeezed below `pinch` still leave at the
-                // next visit, early; see the status in `crate::loops`.)
-                let swallows = !self.process.is_symmetric();
-                pinched.retain(|&j| {
-                    let after = 1.0 - br.pts[j].w.norm();
-                    let before = 1.0 - br.before[j].w.norm();
-                    if visited || (swallows && before > SUDDEN * after) {
-                        true
-                    } else {
-                        if after < SQUEEZED_OUT {
-                            squeezed.push(j);
-                        }
-                        false
-                    }
-                });
-            }
             let mut leaving: Vec<usize> = pinched.clone();
             leaving.extend(&broken);
-            leaving.extend(&squeezed);
             let mut inside = Vec::new();
             if st.visit == EndVisit::Full {
                 // A loop closes around the driver and around every other point that sees the
@@ -952,11 +1009,30 @@ impl CleExplorer {
                 for g in group_connected(pts, s.pinch) {
                     let rec = br.rec.fork(false, *next_branch);
                     let mut child = self.split(br.theta, g, seed, index, next_branch, rec);
-                    if R::TRACES && visited {
-                        // The step closed a loop or landed an arch mid-way and its slit went on
-                        // past that point; the points it cut off start where the tip met the
-                        // force point, not where the slit ended, when their own angle says so.
-                        child.snap_to_end();
+                    if R::TRACES {
+                        if child.near_end(if visited { SNAP } else { SNAP_CUT }) {
+                            // Cut off by the step: at a visit of an end (a loop or an arch
+                            // closed mid-step, its slit went on past that point) or, for
+                            // κ > 4, swallowed. Seen from the points the tip met the force
+                            // point: θ is at an end. At 2π the first step closes their loop
+                            // (from the last visit); at 0 their region is explored afresh from
+                            // here, where their next loop starts.
+                            child.snap_to_end();
+                            if child.theta == 0.0 {
+                                child.rec.restarted();
+                            }
+                        } else {
+                            // Split off before anything cut the points off: their region is
+                            // joined to the parent's by a neck that the parent's frame squeezes
+                            // below `pinch`. Seen from them, the parent's whole region is an arc
+                            // of about δ = `1 − |w|` (their closeness to the parent's driver)
+                            // around the tip; a first slit of length about √δ from the tip
+                            // swallows it, and the branch restarts afresh at that slit's end,
+                            // as a CLE of the region behind the neck. Without this the branch
+                            // would trace the parent's region again, at scales its frame cannot
+                            // resolve, overlapping what the parent traces (both seen).
+                            child.swallow = Some(0.25 * child.closeness);
+                        }
                     }
                     spawned.push(child);
                 }
@@ -1032,8 +1108,12 @@ impl CleExplorer {
             rng: rng::substream(seed, Tag::Cle, index, id),
             before: Vec::new(),
             rec,
+            swallow: None,
+            closeness: 1.0,
+            pending: Vec::new(),
         };
         let k = b.fastest_any();
+        b.closeness = 1.0 - b.pts[k].w.norm();
         b.renormalise(k);
         b
     }
@@ -1068,16 +1148,19 @@ pub(crate) fn group_connected(pts: Vec<Tracked>, pinch: f64) -> Vec<Vec<Tracked>
     groups.into_iter().map(|g| g.1).collect()
 }
 
-/// A point whose distance to the circle shrinks by more than this factor in one step was cut
-/// off (swallowed), not merely squeezed (geometry only).
-const SUDDEN: f64 = 1e3;
-/// Points squeezed closer than this to the circle are dropped (geometry only).
-const SQUEEZED_OUT: f64 = 1e-14;
-
 /// A branch's angle within this of an end is put at the end by [`Branch::snap_to_end`].
 const SNAP: f64 = 0.3;
+/// A branch cut off without a visit (swallowed) whose angle is within this of an end is put
+/// there; farther, it was split off early and restarts (geometry only).
+const SNAP_CUT: f64 = 0.01;
 
 impl<R: Recorder> Branch<R> {
+    /// Whether θ is within `tol` of an end.
+    pub(crate) fn near_end(&self, tol: f64) -> bool {
+        let a = self.theta.abs();
+        a < tol || a > TWO_PI - tol
+    }
+
     /// Put θ at the nearer end (0 or ±2π) when it is within [`SNAP`] of it.
     pub(crate) fn snap_to_end(&mut self) {
         let a = self.theta.abs();

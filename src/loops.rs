@@ -38,15 +38,11 @@
 //! raster, and most large loops of κ > 4 were left open. Here nothing is rasterised and a
 //! loop is closed by its own trace, but the configurations are still not right. Measured on
 //! this machine (2 cores, ε = 0.2, defaults):
-//! * κ = 3, seeds 2 and 3: 14.5 and 23.4 s, 13.6 and 14.7 MB peak; 3 and 1 closures; 2 and 0
-//!   closed loops of diameter ≥ ε, none open; 115 and 179 steps longer than three spacings;
-//!   4 and 2 stalled branches. Seed 1 did not finish in 12 minutes and had grown to 790 MB.
-//!   (With `h_max` = 0.04 seeds 1–3 took 11, 9 and 11 s at 13–14 MB and gave 3, 3 and 0
-//!   closed loops, 2, 1 and 0 open; but a κ = 6 configuration then ran past two minutes.)
-//! * κ = 6, seeds 1–3: 1.6, 4.6 and 2.5 s, 12.6–12.9 MB; 1, 2 and 4 branches; 1, 0 and 2
-//!   closures; no closed loop of diameter ≥ ε, 1, 0 and 1 open ones: the exploration
-//!   squeezes most grid points out before they are cut off (below). At ε = 0.5 one
-//!   configuration (seed 0) took 87 s, mostly in very short steps; the tests cap the steps.
+//! * (2026-12-03, after the changes in DEVELOPERS.md: early splits restart behind the neck,
+//!   capped steps near 2π, bridge-refined steps) κ = 3, seeds 1–3: 28, 21 and 36 s, 15–19 MB
+//!   peak, 1, 1 and 0 closed loops of diameter ≥ ε, none open. κ = 6, seeds 1–3: 56, 47 and
+//!   51 s, 13–19 MB, 2, 1 and 1 closed and 19, 12 and 4 open loops. (Before these changes a
+//!   κ = 3 configuration ran past 12 minutes and 790 MB.)
 //! * The root branch's trace, drawn alone, looks like a CLE exploration; the branches split
 //!   off it were the trouble, and three causes were found and fixed: (1) a new branch's frame
 //!   was a sliver of its parent's reference frame, where slits fall below the precision (its
@@ -55,23 +51,13 @@
 //!   off there started at a neck and its first step jumped 10–25 spacings into the other side
 //!   (a visit of 2π now ends the step at the force point; a visit of 0 splits the step in two
 //!   halves); (3) the loop start of a branch cut off at a visit is the visit before.
-//! * **What is still wrong**: the explorer carries every non-driving point by its image in
-//!   the driver's frame. A driver deep in the domain (radial time 20–30 before the first loop
-//!   around it at κ = 3, by the SSW law) squeezes far points within `pinch` of the circle
-//!   although nothing separates them, so they leave at the next visit of an end — early, with a
-//!   future of their own that the parent traces differently — or, when splits are allowed only
-//!   at real cut-offs, they fall below the precision and are lost (both tried: the first gives
-//!   overlapping traces, the second empty configurations). Choosing the deepest point as
-//!   driver instead of the nearest was tried and was worse. The next step: carry a point
-//!   near the circle in *boundary-layer coordinates* `(α, s)`, `w = (1 − e^{−s}) e^{iα}`,
-//!   updated by the boundary correspondence and the derivative on the circle
-//!   (`α ← G(α)`, `s ← s − log|G'(e^{iα})|`, the same for automorphisms; first order in
-//!   `e^{−s}`, so exact to the precision wherever the slit is far compared with `e^{−s}`),
-//!   which keeps `1 − |w|` to full relative precision however deep the driver goes; and decide
-//!   cut-offs by θ's events, not by squeezing: at a visit of 0 the points that see the
-//!   excursion's arc as more than half their boundary (as at a visit of 2π) are cut off. For
-//!   4 < κ < 8 swallowings on the side away from the force point still need a rule (the arc
-//!   between the tip and the touched point collapses over a few steps).
+//! * **What is still wrong**: for 4 < κ < 8 most loops do not return to their start (their
+//!   start, the last visit of θ, is not where a loop began for points cut off without a
+//!   visit), and for κ ≤ 4 few loops are found. Points squeezed in the driver's frame (a
+//!   driver deep in the domain squeezes far points towards the circle) now leave at once and
+//!   restart behind their neck as a fresh CLE (an approximation: the two sides of a neck of
+//!   harmonic size below `pinch` are treated as independent). DEVELOPERS.md keeps the list of
+//!   what was tried and the open question for κ > 4.
 //!
 //! # Resolution, and what is approximate
 //! * The steps are cut so that the tip moves about `spacing` (default ε/6) in the plane: the
@@ -89,6 +75,7 @@ use crate::cle::{CleExplorer, EndVisit, ExploreSettings, Recorder};
 use crate::disk_fast::{DiskChain, DiskMap, Mobius};
 use crate::error::{Error, Result};
 use crate::polygon::winding_number;
+use crate::radial::RadialStep;
 use num_complex::Complex64;
 use serde::Serialize;
 use std::cell::RefCell;
@@ -642,6 +629,12 @@ impl<'a> Recorder for PathRec<'a> {
         };
         let moved = (now - before).norm();
         self.own_steps += 1;
+        if self.own_steps % 20000 == 0 && std::env::var_os("SLEEK_DEBUG").is_some() {
+            eprintln!(
+                "branch {} step {} theta {:.6} h {:.2e} max_h {:.2e} tip {:.4}",
+                self.me.id, self.own_steps, theta, h, self.max_h, now
+            );
+        }
         if moved > 3.0 * s.spacing {
             *self.sh.long_steps.borrow_mut() += 1;
             self.own_long += 1;
@@ -678,6 +671,33 @@ impl<'a> Recorder for PathRec<'a> {
 
     fn max_h(&self) -> f64 {
         self.max_h
+    }
+
+    fn too_far(&self, step: &RadialStep) -> bool {
+        let Some(&tip) = self.trace.last() else {
+            return false;
+        };
+        let next = self.to_plane(self.d.invert(step.tip()), self.chain.len());
+        (next - tip).norm() > 2.0 * self.sh.settings.spacing
+    }
+
+    fn far_from_force_point(&self) -> bool {
+        let Some(&tip) = self.trace.last() else {
+            return false;
+        };
+        let f = self.to_plane(self.d.invert(Complex64::new(1.0, 0.0)), self.chain.len());
+        (f - tip).norm() > self.sh.settings.spacing
+    }
+
+    fn restarted(&mut self) {
+        // The swallowing step crossed the parent's region: it is no part of a loop (which start
+        // here), and it went through `map` only, so it is not counted as a long step nor used
+        // for the scale; the next step is a probe.
+        let now = self.pos_now();
+        self.last_visit = now.clone();
+        self.prev_visit = now;
+        self.visit_in_last_step = false;
+        self.max_h = self.max_h.min(PROBE_H);
     }
 
     fn half_step(&mut self) {
@@ -774,17 +794,37 @@ impl<'a> Recorder for PathRec<'a> {
             return;
         };
         let s = &self.sh.settings;
-        let pts = self.path_from(&start);
+        let mut pts = self.path_from(&start);
         let gap = match (pts.first(), pts.last()) {
             (Some(a), Some(b)) => (a - b).norm(),
             _ => 0.0,
         };
         let diameter = diameter(&pts);
         let keep = diameter >= s.min_size && gap <= s.close_gap * s.spacing;
-        let mut points = if keep { pts } else { Vec::new() };
-        if keep && points.len() > 1 {
-            points.pop(); // the closing point repeats the start
+        if std::env::var_os("SLEEK_DEBUG").is_some() {
+            let n = self.chain.len();
+            let f = self.to_plane(self.d.invert(Complex64::new(1.0, 0.0)), n);
+            let (a, b) = (
+                pts.first().copied().unwrap_or_default(),
+                pts.last().copied().unwrap_or_default(),
+            );
+            eprintln!(
+                "closure {loop_id} on branch {} (own steps {}) start ({}, {}) len {} gap {:.1} spacings diam {:.3}; force point from start {:.1}, from end {:.1}",
+                self.me.id,
+                self.own_steps,
+                start.seg.id,
+                start.idx,
+                pts.len(),
+                gap / s.spacing,
+                diameter,
+                (f - a).norm() / s.spacing,
+                (f - b).norm() / s.spacing,
+            );
         }
+        if keep && pts.len() > 1 {
+            pts.pop(); // the closing point repeats the start
+        }
+        let points = if keep { pts } else { Vec::new() };
         self.sh.closures.borrow_mut().push(Closure {
             loop_id,
             start: (start.seg.id, start.idx),
@@ -796,6 +836,15 @@ impl<'a> Recorder for PathRec<'a> {
     }
 
     fn finish(self) {
+        if std::env::var_os("SLEEK_DEBUG").is_some() {
+            eprintln!(
+                "branch {} steps {} long {} trace {}",
+                self.me.id,
+                self.own_steps,
+                self.own_long,
+                self.trace.len()
+            );
+        }
         let _ = self.me.frozen.set(Frozen {
             parent: self.parent,
             chain: self.chain,
