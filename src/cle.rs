@@ -1010,14 +1010,13 @@ impl CleExplorer {
                     let rec = br.rec.fork(false, *next_branch);
                     let mut child = self.split(br.theta, g, seed, index, next_branch, rec);
                     if R::TRACES {
-                        if child.near_end(if visited { SNAP } else { SNAP_CUT }) {
+                        if child.snap_to_end(if visited { SNAP } else { SNAP_CUT }) {
                             // Cut off by the step: at a visit of an end (a loop or an arch
                             // closed mid-step, its slit went on past that point) or, for
                             // κ > 4, swallowed. Seen from the points the tip met the force
                             // point: θ is at an end. At 2π the first step closes their loop
                             // (from the last visit); at 0 their region is explored afresh from
                             // here, where their next loop starts.
-                            child.snap_to_end();
                             if child.theta == 0.0 {
                                 child.rec.restarted();
                             }
@@ -1148,27 +1147,25 @@ pub(crate) fn group_connected(pts: Vec<Tracked>, pinch: f64) -> Vec<Vec<Tracked>
     groups.into_iter().map(|g| g.1).collect()
 }
 
-/// A branch's angle within this of an end is put at the end by [`Branch::snap_to_end`].
+/// A branch cut off at a visit whose angle is within this of an end is put there.
 const SNAP: f64 = 0.3;
 /// A branch cut off without a visit (swallowed) whose angle is within this of an end is put
 /// there; farther, it was split off early and restarts (geometry only).
 const SNAP_CUT: f64 = 0.01;
 
 impl<R: Recorder> Branch<R> {
-    /// Whether θ is within `tol` of an end.
-    pub(crate) fn near_end(&self, tol: f64) -> bool {
+    /// Put θ at the nearer end (0 or ±2π) when it is within `tol` of it; returns whether it
+    /// did.
+    pub(crate) fn snap_to_end(&mut self, tol: f64) -> bool {
         let a = self.theta.abs();
-        a < tol || a > TWO_PI - tol
-    }
-
-    /// Put θ at the nearer end (0 or ±2π) when it is within [`SNAP`] of it.
-    pub(crate) fn snap_to_end(&mut self) {
-        let a = self.theta.abs();
-        if a < SNAP {
+        if a < tol {
             self.theta = 0.0;
-        } else if a > TWO_PI - SNAP {
+        } else if a > TWO_PI - tol {
             self.theta = TWO_PI.copysign(self.theta);
+        } else {
+            return false;
         }
+        true
     }
 
     /// The point with the largest Poisson kernel at the tip, the driver included (used when
