@@ -387,11 +387,28 @@ struct Sigma(f64);
 
 impl std::fmt::Display for Sigma {
     fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        if self.0.is_finite() {
-            let s = format!("{:.2}", self.0);
-            f.pad(&s)
+        // Not `f.pad`: for strings it reads the precision as a maximum width, which cut
+        // "-0.02" to "-0".
+        let s = if self.0.is_finite() {
+            format!("{:.*}", f.precision().unwrap_or(2), self.0)
         } else {
-            f.pad("—")
+            "—".to_string()
+        };
+        match f.width() {
+            Some(w) => write!(f, "{s:>w$}"),
+            None => f.write_str(&s),
         }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::Sigma;
+
+    #[test]
+    fn deviations_keep_their_digits_in_a_fixed_width_column() {
+        assert_eq!(format!("{:>7.2}", Sigma(-0.0234)), "  -0.02");
+        assert_eq!(format!("{:>7.2}", Sigma(1.5)), "   1.50");
+        assert_eq!(format!("{:>7.2}", Sigma(f64::NAN)), "      —");
     }
 }
