@@ -62,7 +62,7 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
             writeln!(
                 out,
                 "  loop {:3} depth {} parent {:?} points {:5} diameter {:.3} largest gap {:.1} \
-                 spacings, closed {}, inside {}, log CR {:.2}",
+                 spacings, closed {}, inside {}, log CR {:?}",
                 l.id,
                 l.depth,
                 l.parent,

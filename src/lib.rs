@@ -44,6 +44,7 @@ pub mod error;
 pub mod fast;
 pub mod finite;
 pub mod forward_tree;
+pub mod geometry;
 pub mod geozip;
 pub mod io;
 pub mod journal;

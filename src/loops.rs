@@ -38,26 +38,17 @@
 //! raster, and most large loops of κ > 4 were left open. Here nothing is rasterised and a
 //! loop is closed by its own trace, but the configurations are still not right. Measured on
 //! this machine (2 cores, ε = 0.2, defaults):
-//! * (2026-12-03, after the changes in DEVELOPERS.md: early splits restart behind the neck,
-//!   capped steps near 2π, bridge-refined steps) κ = 3, seeds 1–3: 28, 21 and 36 s, 15–19 MB
-//!   peak, 1, 1 and 0 closed loops of diameter ≥ ε, none open. κ = 6, seeds 1–3: 56, 47 and
-//!   51 s, 13–19 MB, 2, 1 and 1 closed and 19, 12 and 4 open loops. (Before these changes a
-//!   κ = 3 configuration ran past 12 minutes and 790 MB.)
-//! * The root branch's trace, drawn alone, looks like a CLE exploration; the branches split
-//!   off it were the trouble, and three causes were found and fixed: (1) a new branch's frame
-//!   was a sliver of its parent's reference frame, where slits fall below the precision (its
-//!   reference frame is now re-centred in its own domain before its first step); (2) a step
-//!   that visits an end left the loop or pocket it closed open in the chain, so a branch cut
-//!   off there started at a neck and its first step jumped 10–25 spacings into the other side
-//!   (a visit of 2π now ends the step at the force point; a visit of 0 splits the step in two
-//!   halves); (3) the loop start of a branch cut off at a visit is the visit before.
-//! * **What is still wrong**: for 4 < κ < 8 most loops do not return to their start (their
-//!   start, the last visit of θ, is not where a loop began for points cut off without a
-//!   visit), and for κ ≤ 4 few loops are found. Points squeezed in the driver's frame (a
-//!   driver deep in the domain squeezes far points towards the circle) now leave at once and
-//!   restart behind their neck as a fresh CLE (an approximation: the two sides of a neck of
-//!   harmonic size below `pinch` are treated as independent). DEVELOPERS.md keeps the list of
-//!   what was tried and the open question for κ > 4.
+//! * (2026-12-03, later session: loops also closed from outside, unresolved traces not drawn,
+//!   children split off mid-excursion keep it) κ = 3, seeds 1–3: 28, 25 and 42 s, 15–20 MB
+//!   peak, 12, 2 and 5 loops drawn; κ = 6, seeds 1–3: 59, 59 and 155 s, 14–32 MB,
+//!   3, 3 and 1 drawn, 10, 2 and 3 open.
+//! * **Why this design cannot give right configurations** (DEVELOPERS.md): branches split by
+//!   the pinch threshold, which is not a disconnection (the closeness of two points is small
+//!   whenever either is near the trace, and the driver is the point nearest the tip), and after
+//!   a split parent and child explore the same region independently: drawn together, the
+//!   branches' traces cross all over the disk although each one alone is a clean exploration.
+//!   For κ ≤ 4 the force point's push by the hidden excursions is missing too, so the trunk
+//!   between loops is wrong. The next attempt splits only at real cuts, on both sides.
 //!
 //! # Resolution, and what is approximate
 //! * The steps are cut so that the tip moves about `spacing` (default ε/6) in the plane: the
@@ -67,7 +58,9 @@
 //! * The closing test: a closure counts as a loop's own when its trace ends within
 //!   `close_gap` spacings (default 3) of its start. A group of closures with a common start of
 //!   which none returns is an *open* loop: reported (counted, with its conformal radii) but not
-//!   drawn, since part of it is missing.
+//!   drawn, since part of it is missing. A returned trace with a gap wider than `close_gap`
+//!   spacings anywhere is *unresolved*: counted, not drawn. Besides the points inside a loop,
+//!   the branch outside it closes it too, when θ visits 0 with the trace back at its start.
 //! * For κ ≤ 4 the net push of the hidden excursions on the force point is neglected, as in
 //!   [`crate::cle`] (DESIGN §6.1).
 
@@ -209,12 +202,13 @@ pub struct CleLoop {
     /// Whether the trace returned to its start (false: part of the loop is missing and it is
     /// not drawn; its conformal radii are still exact).
     pub closed: bool,
-    /// The grid point whose exploration closed the loop (it lies inside the loop).
-    #[serde(serialize_with = "ser_point")]
-    pub seen_from: Complex64,
+    /// The grid point whose exploration closed the loop (it lies inside the loop); `None` for
+    /// a loop closed only by explorations outside it.
+    #[serde(serialize_with = "ser_opt_point")]
+    pub seen_from: Option<Complex64>,
     /// `log CR(U, seen_from)`, U the component of the loop's complement containing the point,
     /// from the exploration's radial time (exact for the chain, not measured on the polyline).
-    pub log_cr: f64,
+    pub log_cr: Option<f64>,
     /// Diameter of the polyline (0 for an open loop).
     pub diameter: f64,
     /// Largest distance between consecutive points of the polyline, the closing segment
@@ -233,8 +227,11 @@ fn ser_points<S: serde::Serializer>(p: &[Complex64], s: S) -> std::result::Resul
     q.end()
 }
 
-fn ser_point<S: serde::Serializer>(z: &Complex64, s: S) -> std::result::Result<S::Ok, S::Error> {
-    [z.re, z.im].serialize(s)
+fn ser_opt_point<S: serde::Serializer>(
+    z: &Option<Complex64>,
+    s: S,
+) -> std::result::Result<S::Ok, S::Error> {
+    z.map(|z| [z.re, z.im]).serialize(s)
 }
 
 /// Counters of a configuration (what was approximated, and the cost).
@@ -250,6 +247,9 @@ pub struct LoopDiagnostics {
     pub closures: u64,
     /// Loops of diameter ≥ ε whose trace did not return to its start (kept as open loops).
     pub open_loops: u64,
+    /// Loops of diameter ≥ ε whose trace returned to its start but has a gap wider than
+    /// `close_gap` spacings (not drawn).
+    pub unresolved_loops: u64,
     /// Steps whose tip moved more than three spacings in the plane.
     pub long_steps: u64,
     /// Branches stopped because their tip could not be resolved (module docs).
@@ -373,6 +373,8 @@ struct Closure {
     /// Distance from the closing point to the start.
     gap: f64,
     diameter: f64,
+    /// For a closure seen from outside (θ back at 0): the loop's depth and the loop around it.
+    outside: Option<(usize, Option<u64>)>,
 }
 
 /// What all branches of one configuration share.
@@ -549,7 +551,6 @@ fn segment_point(seg: &Arc<Seg>, i: usize) -> Complex64 {
 
 impl<'a> Recorder for PathRec<'a> {
     const TRACES: bool = true;
-
     /// The explorer's maps are taken in the driver's frame, centred near the tip, where every
     /// step is a large slit; composed as they are, no block of the chain would keep a usable
     /// series. So the branch keeps its chain in a *reference frame* centred far from the tip
@@ -690,9 +691,9 @@ impl<'a> Recorder for PathRec<'a> {
     }
 
     fn restarted(&mut self) {
-        // The swallowing step crossed the parent's region: it is no part of a loop (which start
-        // here), and it went through `map` only, so it is not counted as a long step nor used
-        // for the scale; the next step is a probe.
+        // A branch cut off in a pocket starts its region's exploration here: loops start here,
+        // and the scale carried from the parent's frame is not to be trusted (the next step is
+        // a probe).
         let now = self.pos_now();
         self.last_visit = now.clone();
         self.prev_visit = now;
@@ -832,10 +833,57 @@ impl<'a> Recorder for PathRec<'a> {
             points,
             gap,
             diameter,
+            outside: None,
+        });
+    }
+
+    fn returned(&mut self, loop_id: u64, depth: usize, outer: Option<u64>) {
+        let s = &self.sh.settings;
+        let start = self.prev_visit.clone();
+        let mut pts = self.path_from(&start);
+        let n = pts.len();
+        if n < 3 {
+            return;
+        }
+        // The closing point is the force point; the loop returned to it only if the trace came
+        // back along it (not by a jump of the tip to the force point).
+        let last = (pts[n - 1] - pts[n - 2]).norm();
+        let gap = (pts[n - 1] - pts[0]).norm();
+        let diameter = diameter(&pts);
+        if diameter < s.min_size || last > s.close_gap * s.spacing || gap > s.close_gap * s.spacing
+        {
+            return;
+        }
+        pts.pop();
+        self.sh.closures.borrow_mut().push(Closure {
+            loop_id,
+            start: (start.seg.id, start.idx),
+            inside: Vec::new(),
+            points: pts,
+            gap: last,
+            diameter,
+            outside: Some((depth, outer)),
         });
     }
 
     fn finish(self) {
+        if let Some(path) = std::env::var_os("SLEEK_DUMP") {
+            // Development aid: every branch's own trace, one line per point.
+            use std::io::Write;
+            if let Ok(mut f) = std::fs::OpenOptions::new()
+                .create(true)
+                .append(true)
+                .open(path)
+            {
+                let first = self
+                    .parent
+                    .as_ref()
+                    .map(|l| segment_point(&l.seg, l.trace - 1));
+                for z in first.iter().chain(self.trace.iter()) {
+                    let _ = writeln!(f, "{} {} {}", self.me.id, z.re, z.im);
+                }
+            }
+        }
         if std::env::var_os("SLEEK_DEBUG").is_some() {
             eprintln!(
                 "branch {} steps {} long {} trace {}",
@@ -977,9 +1025,16 @@ fn assemble(
         });
     }
     // Keep: closed loops of diameter ≥ ε; open groups whose partial traces reach ε.
+    // A returned trace with a gap wider than `close_gap` spacings jumped somewhere (the
+    // spacing was not resolved there): it is counted as unresolved, not drawn.
+    let resolved = |i: usize| largest_gap(&closures[i].points) <= s.close_gap * s.spacing;
     let keep: Vec<bool> = found
         .iter()
         .map(|f| match f.own {
+            Some(i) if !closures[i].points.is_empty() && !resolved(i) => {
+                diag.unresolved_loops += 1;
+                false
+            }
             Some(i) => !closures[i].points.is_empty(),
             None => f.diameter >= s.min_size,
         })
@@ -999,6 +1054,16 @@ fn assemble(
             }
         }
     }
+    // Loops seen only from outside: depth and parent from the closure.
+    for (g, f) in found.iter().enumerate() {
+        if depth[g] != 0 {
+            continue;
+        }
+        if let Some((d, outer)) = f.members.iter().find_map(|&i| closures[i].outside) {
+            depth[g] = d as u32;
+            parent_group[g] = outer.and_then(|o| group_of_loop.get(&o).copied());
+        }
+    }
     // Order: by depth, then by discovery.
     let mut order: Vec<usize> = (0..found.len()).filter(|&g| keep[g]).collect();
     order.sort_by_key(|&g| (depth[g], g));
@@ -1013,8 +1078,14 @@ fn assemble(
         if !closed {
             diag.open_loops += 1;
         }
-        let c = &closures[seen];
-        let (pt, log_cr) = c.inside[0];
+        // Seen from a point inside when any closure of the group was.
+        let (pt, log_cr) = f
+            .members
+            .iter()
+            .find_map(|&i| closures[i].inside.first().copied())
+            .map(|(p, l)| (Some(grid[p]), Some(l)))
+            .unwrap_or((None, None));
+        let _ = seen;
         let mut inside: Vec<usize> = f
             .members
             .iter()
@@ -1040,7 +1111,7 @@ fn assemble(
             largest_gap: largest_gap(&points),
             points,
             closed,
-            seen_from: grid[pt],
+            seen_from: pt,
             log_cr,
             points_inside: inside.len(),
         });

@@ -43,11 +43,17 @@ fn closed_loops_return_to_their_start_and_open_ones_carry_no_points() {
                     let n = l.points.len();
                     let closing = (l.points[n - 1] - l.points[0]).norm();
                     assert!(closing <= st.close_gap * st.spacing * (1.0 + 1e-12));
+                    // Resolved everywhere, not only at the closing point.
+                    assert!(l.largest_gap <= st.close_gap * st.spacing * (1.0 + 1e-12));
                     assert!(l.points.iter().all(|z| z.norm() <= 1.0 + 1e-9));
                 } else {
                     assert!(l.points.is_empty());
                 }
-                assert!(l.log_cr < 0.0 && l.log_cr.is_finite());
+                match l.log_cr {
+                    Some(x) => assert!(x < 0.0 && x.is_finite() && l.seen_from.is_some()),
+                    // Closed only by the exploration outside it: no point inside saw it.
+                    None => assert!(l.closed && l.seen_from.is_none()),
+                }
                 if let Some(p) = l.parent {
                     assert!(p < l.id && c.loops[p].depth < l.depth);
                 }
