@@ -74,6 +74,29 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
                 l.log_cr
             )?;
         }
+        // Geometry checks (Rohde & Schramm, Ann. Math. 2005; Sheffield & Werner, Ann. Math.
+        // 2012): for κ ≤ 4 loops are simple and pairwise disjoint; for κ > 4 they touch.
+        let closed: Vec<_> = c.loops.iter().filter(|l| l.closed).collect();
+        let not_simple = closed
+            .iter()
+            .filter(|l| !sleek::geometry::is_simple_closed(&l.points))
+            .count();
+        let mut near = 0;
+        for (i, a) in closed.iter().enumerate() {
+            for b in &closed[i + 1..] {
+                if sleek::geometry::vertex_distance(&a.points, &b.points, settings.spacing)
+                    <= 0.5 * settings.spacing
+                {
+                    near += 1;
+                }
+            }
+        }
+        writeln!(
+            out,
+            "  checks: {not_simple} of {} drawn loops not simple; {near} pairs within half a \
+             spacing of each other",
+            closed.len()
+        )?;
         kept += c.loops.iter().filter(|l| l.closed).count();
         dropped += c.diagnostics.open_loops;
         let dir = std::path::Path::new("output/dev");
