@@ -450,7 +450,12 @@ pub fn find_crossing(p: &[Complex64]) -> Option<(usize, usize, Complex64)> {
 }
 
 /// Crossing point of segments [a, b] and [c, d] (proper or touching), if any.
-fn segment_crossing(a: Complex64, b: Complex64, c: Complex64, d: Complex64) -> Option<Complex64> {
+pub(crate) fn segment_crossing(
+    a: Complex64,
+    b: Complex64,
+    c: Complex64,
+    d: Complex64,
+) -> Option<Complex64> {
     let cross = |u: Complex64, v: Complex64| u.re * v.im - u.im * v.re;
     let r = b - a;
     let s = d - c;

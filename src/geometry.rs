@@ -115,16 +115,16 @@ pub fn box_dimension(
 /// segments cross, the closing segment included. Segments that share an end point are not
 /// compared, so a polyline that comes back exactly onto one of its vertices counts as simple.
 pub fn is_simple_closed(p: &[Complex64]) -> bool {
-    if p.len() < 4 {
+    let n = p.len();
+    if n < 4 {
         return true;
     }
-    let mut q = p.to_vec();
-    q.push(p[0]);
-    match crate::curve::find_crossing(&q) {
-        None => true,
-        // The closing segment and the first one share the start point.
-        Some((i, j, _)) => i == 0 && j == q.len() - 2,
+    if crate::curve::find_crossing(p).is_some() {
+        return false;
     }
+    // The closing segment against every segment it does not share an end with.
+    let (a, b) = (p[n - 1], p[0]);
+    !(1..n - 2).any(|k| crate::curve::segment_crossing(a, b, p[k], p[k + 1]).is_some())
 }
 
 /// Smallest distance between the vertices of two polylines, found through a grid of cells of
@@ -185,6 +185,22 @@ mod tests {
             Complex64::new(0.0, 1.0),
         ];
         assert!(!is_simple_closed(&eight));
+        // A simple spiral whose closing segment cuts one of its segments (and touches the
+        // first one at the start point, which is no crossing).
+        let spiral: Vec<Complex64> = [
+            (0.0, 0.0),
+            (3.0, 0.0),
+            (3.0, 3.0),
+            (1.0, 3.0),
+            (1.0, 1.0),
+            (2.0, 1.0),
+            (2.0, 1.5),
+        ]
+        .iter()
+        .map(|&(x, y)| Complex64::new(x, y))
+        .collect();
+        assert!(!is_simple_closed(&spiral));
+        assert!(is_simple_closed(&spiral[..6]));
     }
 
     #[test]
