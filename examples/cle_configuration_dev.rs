@@ -97,6 +97,22 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
              spacing of each other",
             closed.len()
         )?;
+        // The loop's polygon against the chain: the conformal radius of the polygon's interior
+        // seen from the point that closed the loop (polygon zipper) beside the exploration's
+        // own value. They agree when the polygon is the loop (for κ > 4 the polygon's interior
+        // is larger than the point's component, so the polygon's value is an upper bound).
+        for l in &closed {
+            if let (Some(z), Some(lc)) = (l.seen_from, l.log_cr) {
+                let cr = sleek::polygon::conformal_radius(&l.points, z, 4)
+                    .map(|r| format!("{:.4}", r.value.ln()))
+                    .unwrap_or_else(|e| format!("({e})"));
+                writeln!(
+                    out,
+                    "  loop {}: log CR from the polygon {cr}, from the chain {lc:.4}",
+                    l.id
+                )?;
+            }
+        }
         kept += c.loops.iter().filter(|l| l.closed).count();
         dropped += c.diagnostics.open_loops;
         let dir = std::path::Path::new("output/dev");
