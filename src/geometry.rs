@@ -61,11 +61,14 @@ pub fn box_dimension(
     r_max: f64,
     sizes: usize,
 ) -> Result<DimensionFit> {
-    if !(r_min.is_finite() && r_min > 0.0 && r_max.is_finite() && r_max > r_min) {
+    if !(r_min.is_finite() && r_min > 0.0) {
+        return Err(Error::param("r_min", r_min, "a finite box side > 0"));
+    }
+    if !(r_max.is_finite() && r_max > r_min) {
         return Err(Error::param(
-            "r_min",
-            r_min,
-            format!("0 < r_min < r_max (r_max = {r_max})"),
+            "r_max",
+            r_max,
+            format!("a finite box side > r_min = {r_min}"),
         ));
     }
     if sizes < 3 {
@@ -167,6 +170,15 @@ mod tests {
         // A horizontal segment of length 0.9 inside one row of boxes.
         assert_eq!(box_count(&p, 0.1), 10);
         assert_eq!(box_count(&p, 0.01), 91);
+    }
+
+    #[test]
+    fn bad_box_ranges_name_the_value() {
+        let p = [Complex64::new(0.0, 0.0), Complex64::new(1.0, 0.0)];
+        let e = box_dimension(&p, 0.1, 0.05, 4).unwrap_err().to_string();
+        assert!(e.contains("r_max") && e.contains("0.05"), "{e}");
+        let e = box_dimension(&p, 0.0, 0.05, 4).unwrap_err().to_string();
+        assert!(e.contains("r_min"), "{e}");
     }
 
     #[test]

@@ -1071,9 +1071,9 @@ fn assemble(
     let mut out = Vec::new();
     for g in order {
         let f = &found[g];
-        let (points, closed, seen) = match f.own {
-            Some(i) => (closures[i].points.clone(), true, i),
-            None => (Vec::new(), false, f.members[0]),
+        let (points, closed) = match f.own {
+            Some(i) => (closures[i].points.clone(), true),
+            None => (Vec::new(), false),
         };
         if !closed {
             diag.open_loops += 1;
@@ -1085,7 +1085,6 @@ fn assemble(
             .find_map(|&i| closures[i].inside.first().copied())
             .map(|(p, l)| (Some(grid[p]), Some(l)))
             .unwrap_or((None, None));
-        let _ = seen;
         let mut inside: Vec<usize> = f
             .members
             .iter()
