@@ -148,7 +148,7 @@ impl DiskMap {
     #[inline]
     pub fn inverse(&self, z: Complex64) -> Complex64 {
         match *self {
-            DiskMap::Step { step, rot } => step.inverse(z * rot.conj()),
+            DiskMap::Step { step, rot } => step.inverse_fast(z * rot.conj()),
             DiskMap::Tilted { step, rot } => step.inverse(z * rot.conj()),
             DiskMap::Mobius { c, rot } => {
                 let u = z * rot.conj();

@@ -29,7 +29,7 @@ const I: Complex64 = Complex64 { re: 0.0, im: 1.0 };
 /// fraction of its cost (`sqrt` through the polar form spent 70% of a configuration's time in
 /// `hypot`, `atan2` and `sincos`).
 #[inline]
-fn csqrt(z: Complex64) -> Complex64 {
+pub(crate) fn csqrt(z: Complex64) -> Complex64 {
     let (x, y) = (z.re, z.im);
     if x == 0.0 && y == 0.0 {
         return Complex64::new(0.0, y);

@@ -60,6 +60,7 @@ pub mod plot_measure;
 pub mod polygon;
 pub mod radial;
 pub mod radii;
+pub mod regions;
 pub mod report;
 pub mod rng;
 pub mod sle;

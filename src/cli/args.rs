@@ -86,6 +86,18 @@ pub enum Command {
     /// finished sample saved; --resume continues it), --shard K/M runs a share of the samples
     /// for `sleek merge`.
     Radii(RadiiArgs),
+    /// A whole CLE_κ configuration in the unit disk: every loop of diameter ≥ --min-size as a
+    /// closed polyline with its nesting depth, parent loop and conformal radius; exported as
+    /// JSON and CSV and drawn coloured by depth.
+    ///
+    /// One radial SLE_κ(κ−6) exploration per region (the disk, then each loop's interior and
+    /// each pocket the trace cut off, uniformised afresh by the geodesic zipper); the target
+    /// moves before a loop can close around it, so every loop closes seen from outside. The
+    /// loops are estimates at a stated resolution: trace points about --min-size/6 apart, and a
+    /// loop whose interior has no point farther than --min-size/8 from the trace can be missed.
+    /// Writes loops.json and loops.png to --out (default output/) unless --export-json,
+    /// --export-csv or --plot name other files. Cost: see `sleek bench --loops`.
+    Loops(LoopsArgs),
     /// Time the direct and fast trace methods in one run on this machine: fitted scaling
     /// exponents, speed-ups, fast-vs-direct agreement and peak memory (about a minute); with
     /// --cle, the CLE exploration instead.
@@ -469,6 +481,43 @@ pub struct RadiiArgs {
     /// beside the exact density, and E[CR^λ] beside the exact curve.
     #[arg(long, value_name = "FILE")]
     pub plot: Option<PathBuf>,
+}
+
+#[derive(Args, Debug)]
+pub struct LoopsArgs {
+    /// κ, 8/3 < κ < 8 (fractions such as 16/3 are accepted).
+    #[arg(long, short, value_parser = parse_kappa)]
+    pub kappa: f64,
+    /// ε: loops of diameter at least this are kept, 0.01 ≤ ε ≤ 1 (the work grows faster than
+    /// 1/ε²).
+    #[arg(long, default_value = "0.1", value_parser = parse_positive)]
+    pub min_size: f64,
+    /// Marked point x,y with x² + y² < 1 (repeatable): the loops around it are listed and drawn
+    /// thicker.
+    #[arg(long, value_parser = parse_point, allow_hyphen_values = true, value_name = "X,Y")]
+    pub at: Vec<(f64, f64)>,
+    /// Write the configuration as JSON: kappa, seed, min_size, settings, resolution and the
+    /// loops (id, parent, depth, points [[x, y], …], diameter, log_cr, seen_from).
+    #[arg(long, value_name = "FILE")]
+    pub export_json: Option<PathBuf>,
+    /// Write every loop vertex as CSV: loop,parent,depth,vertex,x,y.
+    #[arg(long, value_name = "FILE")]
+    pub export_csv: Option<PathBuf>,
+    /// Draw the configuration (.svg or .png): loops coloured by depth with a legend, the unit
+    /// circle, κ, seed and ε in the caption.
+    #[arg(long, value_name = "FILE")]
+    pub plot: Option<PathBuf>,
+    /// Outline only, or interiors filled with a light tint of the depth's colour.
+    #[arg(long, value_enum, default_value = "outline")]
+    pub style: LoopStyleArg,
+}
+
+#[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq)]
+pub enum LoopStyleArg {
+    /// Outlines only.
+    Outline,
+    /// Interiors filled (deeper loops on top), outlines over them.
+    Filled,
 }
 
 fn parse_f64(s: &str) -> Result<f64, String> {

@@ -8,6 +8,7 @@ mod bench_cmd;
 mod common;
 mod lattice_cmd;
 mod laws_cmd;
+mod loops_cmd;
 mod measure_cmd;
 mod merge_cmd;
 mod radial_trace;
@@ -84,6 +85,7 @@ pub fn main() -> ExitCode {
         Some(Command::Laws(a)) => laws_cmd::run(&cli.global, a),
         Some(Command::Audit(a)) => audit_cmd::run(&cli.global, a),
         Some(Command::Radii(a)) => radii_cmd::run(&cli.global, a),
+        Some(Command::Loops(a)) => loops_cmd::run(&cli.global, a),
         Some(Command::Bench(a)) => bench_cmd::run(&cli.global, a),
         Some(Command::Measure(a)) => measure_cmd::run(&cli.global, a),
         Some(Command::Lattice(a)) => lattice_cmd::run(&cli.global, a),

@@ -1,0 +1,1265 @@
+//! Whole CLE_κ configurations in the unit disk, region by region: every loop of diameter at
+//! least ε as a closed polyline, with its nesting depth and parent, for 8/3 < κ < 8.
+//!
+//! # Method
+//! Sheffield's exploration (Duke Math. J. 2009): in a simply connected region, radial
+//! SLE_κ(κ−6) from a boundary point, simulated through its angle process θ (the exact scheme of
+//! [`crate::cle::AngleProcess`], DESIGN §6.1), traces the region's outermost loops one
+//! excursion of θ at a time. Two facts make one exploration per region enough:
+//! * **Target invariance.** Explorations towards different targets agree until the targets are
+//!   disconnected, so at any stopping time the exploration may continue towards any point of the
+//!   remaining domain. Here the target is changed (a disk automorphism of the current frame)
+//!   whenever its neighbourhood has been explored, and *before a loop can close around it*:
+//!   when |θ| comes within `retarget_gap` of 2π, the target moves to a point outside the
+//!   excursion being traced. So a loop closes with θ at 0 (the tip back at the force point),
+//!   seen from outside, and the domain that goes on being explored is always the outside.
+//! * **The domain Markov property.** Given a loop, its interior holds an independent CLE_κ.
+//!   Each closed loop of diameter ≥ ε becomes a new region: its polyline is uniformised afresh
+//!   by the geodesic zipper ([`crate::geozip`]), and explored the same way, one depth deeper.
+//!
+//! So no frame ever has to follow a point into a region cut off from its target, which is
+//! what defeated the branching exploration of [`crate::loops`]: every region is a Jordan
+//! polygon uniformised from the plane, and every chain explores only its own region.
+//!
+//! # Resolution, and what is approximate
+//! * Steps are sized so that the tip moves about `spacing` (default ε/6) in the plane; the map's
+//!   scale at the tip is estimated from the previous step.
+//! * A region is explored until every point of a square grid of spacing `grid` (default ε/6)
+//!   that is still in the remaining domain lies within `stop_room` (default ε/8) of the trace
+//!   or the region's boundary. A loop of diameter ≥ ε whose interior holds no such grid point
+//!   (a long thin loop) can be missed.
+//! * A point whose image in the current frame is within 10⁻¹⁰ of the circle (behind a narrow
+//!   neck) cannot be a target; such points are counted (`unreached_points`), and loops behind
+//!   them are missing.
+//! * A loop that closes around the target anyway (no grid point with room outside it that the
+//!   frame resolves) leaves the outside to the pass over what remains (below); such points are
+//!   counted (`lost_points`).
+//! * For κ ≤ 4 the net push of the hidden excursions on the force point is neglected, as in
+//!   [`crate::cle`] (DESIGN §6.1): the law of the trunk between loops has an error that
+//!   vanishes with the step only like h^{δ/4}, δ = 3 − 8/κ.
+//! * For 4 < κ < 8 the loops touch themselves; a loop's polygon is its whole trace, and its
+//!   interior components, joined at the discrete trace's near-touches, are explored as one
+//!   region (a neck narrower than a spacing is a resolution-scale error).
+
+use crate::cle::{AngleProcess, EndVisit};
+use crate::disk_fast::{DiskChain, DiskMap};
+use crate::error::{Error, Result};
+use crate::geozip::GeodesicZipper;
+use crate::loops::{diameter, largest_gap, CleLoop, LoopConfiguration, LoopDiagnostics};
+use crate::polygon::{signed_area, winding_number};
+use crate::radial::RadialStep;
+use crate::rng::{self, Tag};
+use num_complex::Complex64;
+use rand_chacha::ChaCha8Rng;
+use serde::Serialize;
+use std::collections::{HashMap, VecDeque};
+use std::f64::consts::PI;
+
+const TWO_PI: f64 = 2.0 * PI;
+
+/// A point whose image in the current frame is within this of the circle is not targeted
+/// (module docs).
+const UNREACHED: f64 = 1e-6;
+
+/// The driving angle's reach in a step of length h, in units of √(κh): the step is sized so
+/// that the boundary arc within this reach maps near the tip (a move beyond it, or a visit of
+/// an end from farther away, has probability about e^{−6}).
+const PROBE_REACH: f64 = 3.5;
+
+/// A loop is closed when its last point is within this many spacings of its first.
+pub const CLOSE_GAP: f64 = 3.0;
+
+/// Numerical settings of a configuration (lengths in the unit disk's coordinates).
+#[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+pub struct RegionSettings {
+    /// Loops of diameter at least this are kept (ε).
+    pub min_size: f64,
+    /// Target distance between consecutive trace points (default ε/6).
+    pub spacing: f64,
+    /// Spacing of the grid of candidate targets (default ε/6).
+    pub grid: f64,
+    /// A region is done when no grid point of its remaining domain is farther than this from
+    /// the trace and the region's boundary (default ε/8).
+    pub stop_room: f64,
+    /// Largest step, in radial time of the current frame (default 0.01).
+    pub h_max: f64,
+    /// The target moves outside the current excursion when |θ| > 2π − `retarget_gap`
+    /// (default 1).
+    pub retarget_gap: f64,
+    /// Step budget of one configuration (default 2·10⁷); exceeding it leaves the configuration
+    /// incomplete, which is reported.
+    pub max_steps: u64,
+}
+
+impl RegionSettings {
+    /// Defaults for the size cutoff ε (see the field docs).
+    pub fn defaults(min_size: f64) -> Self {
+        RegionSettings {
+            min_size,
+            spacing: min_size / 6.0,
+            grid: min_size / 6.0,
+            stop_room: min_size / 8.0,
+            h_max: 0.01,
+            retarget_gap: 1.0,
+            max_steps: 20_000_000,
+        }
+    }
+
+    /// Check the settings.
+    ///
+    /// Errors: [`Error::InvalidParameter`] naming the first value out of range.
+    pub fn validate(&self) -> Result<()> {
+        if !(self.min_size.is_finite() && self.min_size >= 0.01 && self.min_size <= 1.0) {
+            return Err(Error::param(
+                "min-size",
+                self.min_size,
+                "0.01 <= min-size <= 1 (the smallest loop diameter kept; the work grows like \
+                 1/min-size^2)",
+            ));
+        }
+        let e = self.min_size;
+        if !(self.spacing.is_finite() && self.spacing >= e / 50.0 && self.spacing <= e / 2.0) {
+            return Err(Error::param(
+                "spacing",
+                self.spacing,
+                "min-size/50 <= spacing <= min-size/2",
+            ));
+        }
+        if !(self.grid.is_finite() && self.grid >= e / 20.0 && self.grid <= e) {
+            return Err(Error::param(
+                "grid",
+                self.grid,
+                "min-size/20 <= grid <= min-size",
+            ));
+        }
+        if !(self.stop_room.is_finite() && self.stop_room >= e / 50.0 && self.stop_room <= e) {
+            return Err(Error::param(
+                "stop-room",
+                self.stop_room,
+                "min-size/50 <= stop-room <= min-size",
+            ));
+        }
+        if !(self.h_max.is_finite() && self.h_max > 0.0 && self.h_max <= 0.1) {
+            return Err(Error::param("h-max", self.h_max, "0 < h-max <= 0.1"));
+        }
+        if !(self.retarget_gap.is_finite() && self.retarget_gap >= 0.1 && self.retarget_gap <= PI) {
+            return Err(Error::param(
+                "retarget-gap",
+                self.retarget_gap,
+                "0.1 <= retarget-gap <= pi",
+            ));
+        }
+        if self.max_steps == 0 {
+            return Err(Error::param("max-steps", 0.0, "max-steps >= 1"));
+        }
+        Ok(())
+    }
+}
+
+/// Counters of a region-wise configuration beyond [`LoopDiagnostics`].
+#[derive(Debug, Clone, Default, PartialEq, Serialize)]
+pub struct RegionDiagnostics {
+    /// Regions explored (the disk and the loop interiors with room for a loop ≥ ε).
+    pub regions: u64,
+    /// Changes of target.
+    pub retargets: u64,
+    /// Loops that closed around their target (θ visited 2π).
+    pub closed_around_target: u64,
+    /// Grid points with room that could not be targeted (image within 10⁻¹⁰ of the circle).
+    pub unreached_points: u64,
+    /// Grid points with room left outside a loop that closed around its target (explored later
+    /// as regions of their own, from what remains).
+    pub lost_points: u64,
+    /// Loop interiors the zipper could not uniformise (not explored; module docs).
+    pub failed_interiors: u64,
+    /// Largest number of maps in one region's chain.
+    pub longest_chain: u64,
+}
+
+/// A region waiting to be explored.
+#[derive(Debug, Clone)]
+struct Task {
+    /// Counterclockwise polygon, or `None` for the unit disk.
+    poly: Option<Vec<Complex64>>,
+    /// Its uniformising map, centred at `centre` (`None` for the disk, centre 0).
+    zip: Option<Box<GeodesicZipper>>,
+    /// The point of the region farthest from its boundary.
+    centre: Complex64,
+    /// Loops surrounding the region.
+    depth: u32,
+    /// The innermost of them.
+    parent: Option<usize>,
+    /// Random stream of the region (a pure function of its position in the tree).
+    stream: u64,
+}
+
+/// The region's uniformising map Φ: D → region.
+enum PlaneMap {
+    Disk,
+    Zip(Box<GeodesicZipper>),
+}
+
+impl PlaneMap {
+    fn to_plane(&self, w: Complex64) -> Complex64 {
+        match self {
+            PlaneMap::Disk => w,
+            PlaneMap::Zip(z) => z.from_disk(w),
+        }
+    }
+    fn to_disk(&self, p: Complex64) -> Complex64 {
+        match self {
+            PlaneMap::Disk => p,
+            PlaneMap::Zip(z) => z.to_disk(p),
+        }
+    }
+}
+
+/// Candidate targets: the grid points inside a region, with their room (distance to the trace
+/// and the region's boundary, capped) and state, bucketed for local updates and searches.
+struct Grid {
+    pts: Vec<Complex64>,
+    room: Vec<f64>,
+    alive: Vec<bool>,
+    unreached: Vec<bool>,
+    buckets: HashMap<(i64, i64), Vec<u32>>,
+    cell: f64,
+}
+
+impl Grid {
+    fn key(&self, z: Complex64) -> (i64, i64) {
+        (
+            (z.re / self.cell).floor() as i64,
+            (z.im / self.cell).floor() as i64,
+        )
+    }
+
+    /// The lattice points `g·(i, j)` inside the region, rooms from the boundary capped at `cap`.
+    fn new(poly: Option<&[Complex64]>, g: f64, cap: f64) -> Self {
+        let mut pts = Vec::new();
+        let mut room = Vec::new();
+        match poly {
+            None => {
+                let n = (1.0 / g).floor() as i64;
+                for j in -n..=n {
+                    for i in -n..=n {
+                        let z = Complex64::new(i as f64 * g, j as f64 * g);
+                        let r = 1.0 - z.norm();
+                        if r > 0.0 {
+                            pts.push(z);
+                            room.push(r.min(cap));
+                        }
+                    }
+                }
+            }
+            Some(v) => {
+                let (mut x0, mut x1, mut y0, mut y1) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
+                for z in v {
+                    x0 = x0.min(z.re);
+                    x1 = x1.max(z.re);
+                    y0 = y0.min(z.im);
+                    y1 = y1.max(z.im);
+                }
+                for j in (y0 / g).ceil() as i64..=(y1 / g).floor() as i64 {
+                    for i in (x0 / g).ceil() as i64..=(x1 / g).floor() as i64 {
+                        let z = Complex64::new(i as f64 * g, j as f64 * g);
+                        if winding_number(v, z) != 0 {
+                            pts.push(z);
+                            room.push(distance_to_polyline(v, z, true).min(cap));
+                        }
+                    }
+                }
+            }
+        }
+        let n = pts.len();
+        let mut grid = Grid {
+            pts,
+            room,
+            alive: vec![true; n],
+            unreached: vec![false; n],
+            buckets: HashMap::new(),
+            cell: cap.max(g),
+        };
+        for k in 0..n {
+            let key = grid.key(grid.pts[k]);
+            grid.buckets.entry(key).or_default().push(k as u32);
+        }
+        grid
+    }
+
+    /// A new trace point: rooms within a cell of it shrink.
+    fn touch(&mut self, p: Complex64) {
+        let (bx, by) = self.key(p);
+        for dy in -1..=1 {
+            for dx in -1..=1 {
+                if let Some(b) = self.buckets.get(&(bx + dx, by + dy)) {
+                    for &k in b {
+                        let k = k as usize;
+                        let d = (self.pts[k] - p).norm();
+                        if d < self.room[k] {
+                            self.room[k] = d;
+                        }
+                    }
+                }
+            }
+        }
+    }
+
+    /// Whether point `k` can still be a target.
+    fn open(&self, k: usize, stop_room: f64) -> bool {
+        self.alive[k] && !self.unreached[k] && self.room[k] >= stop_room
+    }
+
+    /// Open points in order of distance from `q`, searching cells outwards until `want` are
+    /// found (and one ring beyond, so the order is right) or the grid is exhausted.
+    fn nearest_open(&self, q: Complex64, stop_room: f64, want: usize) -> Vec<usize> {
+        let (bx, by) = self.key(q);
+        let mut found: Vec<(f64, usize)> = Vec::new();
+        let max_ring = self
+            .buckets
+            .keys()
+            .map(|&(x, y)| (x - bx).abs().max((y - by).abs()))
+            .max()
+            .unwrap_or(0);
+        let mut extra = None;
+        for r in 0..=max_ring {
+            for dy in -r..=r {
+                for dx in -r..=r {
+                    if dx.abs() != r && dy.abs() != r {
+                        continue;
+                    }
+                    if let Some(b) = self.buckets.get(&(bx + dx, by + dy)) {
+                        for &k in b {
+                            let k = k as usize;
+                            if self.open(k, stop_room) {
+                                found.push(((self.pts[k] - q).norm(), k));
+                            }
+                        }
+                    }
+                }
+            }
+            if extra.is_none() && found.len() >= want {
+                extra = Some(r + 1);
+            }
+            if extra == Some(r) {
+                break;
+            }
+        }
+        found.sort_by(|a, b| a.0.total_cmp(&b.0));
+        found.into_iter().map(|(_, k)| k).collect()
+    }
+
+    /// Mark the points inside (`inside = true`) or outside the closed polyline `v` as no longer
+    /// in the remaining domain; returns how many of them were open.
+    fn remove(&mut self, v: &[Complex64], inside: bool, stop_room: f64) -> u64 {
+        let (mut x0, mut x1, mut y0, mut y1) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
+        for z in v {
+            x0 = x0.min(z.re);
+            x1 = x1.max(z.re);
+            y0 = y0.min(z.im);
+            y1 = y1.max(z.im);
+        }
+        let mut count = 0;
+        for k in 0..self.pts.len() {
+            if !self.alive[k] {
+                continue;
+            }
+            let z = self.pts[k];
+            let in_box = z.re >= x0 && z.re <= x1 && z.im >= y0 && z.im <= y1;
+            let is_in = in_box && winding_number(v, z) != 0;
+            if is_in == inside {
+                if self.open(k, stop_room) {
+                    count += 1;
+                }
+                self.alive[k] = false;
+            }
+        }
+        count
+    }
+}
+
+/// Distance from `z` to the polyline `v` (closed when `closed`).
+fn distance_to_polyline(v: &[Complex64], z: Complex64, closed: bool) -> f64 {
+    let n = v.len();
+    let segs = if closed { n } else { n.saturating_sub(1) };
+    let mut best = f64::INFINITY;
+    for i in 0..segs {
+        let (a, b) = (v[i], v[(i + 1) % n]);
+        let d = b - a;
+        let l2 = d.norm_sqr();
+        let t = if l2 > 0.0 {
+            (((z - a) * d.conj()).re / l2).clamp(0.0, 1.0)
+        } else {
+            0.0
+        };
+        best = best.min((a + d * t - z).norm());
+    }
+    best
+}
+
+/// The forward map of a chain map at an interior point (steps and automorphisms only).
+fn forward(m: &DiskMap, w: Complex64) -> Complex64 {
+    match *m {
+        DiskMap::Step { step, rot } => rot * step.forward(w),
+        DiskMap::Mobius { c, rot } => rot * (w - c) / (1.0 - c.conj() * w),
+        DiskMap::Tilted { step, rot } => rot * step.forward_with_derivative(w).0,
+        DiskMap::Conjugated { .. } => unreachable!("regions push no conjugated steps"),
+    }
+}
+
+/// Stream number of child `k` of the region with stream `s` (SplitMix64 finaliser of the pair).
+fn child_stream(s: u64, k: u64) -> u64 {
+    let mut x = s
+        .wrapping_mul(0x9E37_79B9_7F4A_7C15)
+        .wrapping_add(k.wrapping_add(1).wrapping_mul(0xD1B5_4A32_D192_ED03));
+    x ^= x >> 30;
+    x = x.wrapping_mul(0xBF58_476D_1CE4_E5B9);
+    x ^= x >> 27;
+    x = x.wrapping_mul(0x94D0_49BB_1331_11EB);
+    x ^ (x >> 31)
+}
+
+/// Sampler of CLE_κ configurations in the unit disk, region by region (module docs).
+#[derive(Debug, Clone)]
+pub struct RegionSampler {
+    kappa: f64,
+    process: AngleProcess,
+    settings: RegionSettings,
+}
+
+/// What one region's exploration leaves behind.
+struct RegionResult {
+    loops: Vec<FoundLoop>,
+    children: Vec<ChildRegion>,
+}
+
+/// A free component left after a region's exploration (module docs).
+struct ChildRegion {
+    outline: Vec<Complex64>,
+    centre: Complex64,
+    room: f64,
+    depth: u32,
+    /// The innermost of the region's loops around it (index in the region's `loops`), if any.
+    parent_local: Option<usize>,
+}
+
+/// A loop found in a region, before numbering.
+struct FoundLoop {
+    points: Vec<Complex64>,
+    depth: u32,
+    /// Index (in the region's `loops`) of the loop it lies in, when it was found inside a loop
+    /// that closed around the region's target; otherwise the region's parent.
+    parent_local: Option<usize>,
+}
+
+impl RegionSampler {
+    /// The sampler for CLE_κ.
+    ///
+    /// Errors: [`Error::InvalidParameter`] unless 8/3 < κ < 8, or for settings out of range.
+    pub fn new(kappa: f64, settings: RegionSettings) -> Result<Self> {
+        let process = AngleProcess::new(kappa)?;
+        settings.validate()?;
+        Ok(RegionSampler {
+            kappa,
+            process,
+            settings,
+        })
+    }
+
+    /// κ.
+    pub fn kappa(&self) -> f64 {
+        self.kappa
+    }
+
+    /// The settings.
+    pub fn settings(&self) -> &RegionSettings {
+        &self.settings
+    }
+
+    /// Configuration `index` of a run with `seed`: a pure function of `(seed, index)`.
+    pub fn sample(&self, seed: u64, index: u64) -> (LoopConfiguration, RegionDiagnostics) {
+        let s = &self.settings;
+        let mut queue: VecDeque<Task> = VecDeque::new();
+        queue.push_back(Task {
+            poly: None,
+            zip: None,
+            centre: Complex64::new(0.0, 0.0),
+            depth: 0,
+            parent: None,
+            stream: 0,
+        });
+        let mut loops: Vec<CleLoop> = Vec::new();
+        let mut diag = LoopDiagnostics::default();
+        let mut rd = RegionDiagnostics::default();
+        while let Some(task) = queue.pop_front() {
+            if diag.steps >= s.max_steps {
+                diag.truncated = true;
+                break;
+            }
+            let mut g = rng::substream(seed, Tag::Loops, index, task.stream);
+            let res = self.explore(&task, &mut g, &mut diag, &mut rd);
+            let base = loops.len();
+            for (j, f) in res.loops.iter().enumerate() {
+                loops.push(CleLoop {
+                    id: base + j,
+                    parent: match f.parent_local {
+                        Some(p) => Some(base + p),
+                        None => task.parent,
+                    },
+                    depth: f.depth,
+                    diameter: diameter(&f.points),
+                    largest_gap: largest_gap(&f.points),
+                    points: f.points.clone(),
+                    // A loop whose chord from its last point back to its first is longer
+                    // than `CLOSE_GAP` spacings did not return to its start in the chain
+                    // (κ ≤ 4, module docs): kept, flagged, not drawn.
+                    closed: (f.points[0] - f.points[f.points.len() - 1]).norm()
+                        <= CLOSE_GAP * s.spacing,
+                    seen_from: None,
+                    log_cr: None,
+                    points_inside: 0,
+                });
+            }
+            // Children: uniformise each; the roomiest one inside a loop gives that loop's
+            // conformal radius.
+            let mut best_room: Vec<f64> = vec![0.0; res.loops.len()];
+            for (k, c) in res.children.into_iter().enumerate() {
+                let zip = match GeodesicZipper::new(&c.outline, c.centre) {
+                    Ok(z) => z,
+                    Err(_) => {
+                        rd.failed_interiors += 1;
+                        continue;
+                    }
+                };
+                if let Some(p) = c.parent_local {
+                    let l = &mut loops[base + p];
+                    l.points_inside += 1;
+                    if c.room > best_room[p] {
+                        best_room[p] = c.room;
+                        l.seen_from = Some(c.centre);
+                        l.log_cr =
+                            Some(-zip.log_abs_derivative(c.centre)).filter(|v| v.is_finite());
+                    }
+                }
+                if c.room >= s.stop_room {
+                    queue.push_back(Task {
+                        poly: Some(c.outline),
+                        zip: Some(Box::new(zip)),
+                        centre: c.centre,
+                        depth: c.depth,
+                        parent: c.parent_local.map(|p| base + p).or(task.parent),
+                        stream: child_stream(task.stream, k as u64),
+                    });
+                }
+            }
+        }
+        diag.closures = loops.len() as u64;
+        (
+            LoopConfiguration {
+                index,
+                loops,
+                diagnostics: diag,
+            },
+            rd,
+        )
+    }
+
+    /// Explore one region (module docs).
+    fn explore(
+        &self,
+        task: &Task,
+        g: &mut ChaCha8Rng,
+        diag: &mut LoopDiagnostics,
+        rd: &mut RegionDiagnostics,
+    ) -> RegionResult {
+        let s = &self.settings;
+        let kappa = self.kappa;
+        let cap = 0.5 * s.min_size;
+        let mut grid = Grid::new(task.poly.as_deref(), s.grid, cap);
+        let mut out = RegionResult {
+            loops: Vec::new(),
+            children: Vec::new(),
+        };
+        // The first target: the open grid point nearest the region's centre.
+        let first = grid
+            .nearest_open(task.centre, s.stop_room, 1)
+            .first()
+            .copied();
+        let Some(first) = first else {
+            return out;
+        };
+        let map = match &task.zip {
+            None => PlaneMap::Disk,
+            Some(z) => PlaneMap::Zip(z.clone()),
+        };
+        rd.regions += 1;
+        let mut chain = DiskChain::new();
+        {
+            let c = map.to_disk(grid.pts[first]);
+            if c.norm() > 0.0 {
+                let rot = (1.0 - c.conj()) / (1.0 - c);
+                chain.push(DiskMap::Mobius {
+                    c,
+                    rot: rot / rot.norm(),
+                });
+            }
+        }
+        let mut target = first;
+        let mut depth = task.depth;
+        let mut inner_parent: Option<usize> = None;
+        let mut theta = 0.0f64;
+        // (The zipper sends its first vertex to 1 through ∞; just inside is well defined.)
+        let start = map.to_plane(Complex64::new(1.0 - 1e-9, 0.0));
+        let mut trace: Vec<Complex64> = vec![start];
+        grid.touch(start);
+        let mut exc_start = 0usize;
+        let mut no_outside = false;
+        // Plane length per unit of frame length at the tip (estimated from the last step).
+        let mut scale = 1.0f64;
+        let mut h_prev = 1e-8f64;
+        loop {
+            if diag.steps >= s.max_steps {
+                diag.truncated = true;
+                break;
+            }
+            // Change of target: when its neighbourhood is explored, it is gone, or a loop is
+            // about to close around it.
+            let closing = TWO_PI - theta.abs() < s.retarget_gap && !no_outside;
+            let stale = !grid.open(target, s.stop_room);
+            if closing || stale {
+                let tip = *trace.last().unwrap_or(&start);
+                let exc: Vec<Complex64> = if closing {
+                    trace[exc_start..].to_vec()
+                } else {
+                    Vec::new()
+                };
+                let mut moved = false;
+                let mut tried = 0;
+                let mut want = 8;
+                'search: loop {
+                    let cands = grid.nearest_open(tip, s.stop_room, want);
+                    if cands.is_empty() {
+                        break;
+                    }
+                    for &k in &cands {
+                        if k == target && !closing {
+                            continue;
+                        }
+                        if closing && (k == target || winding_number(&exc, grid.pts[k]) != 0) {
+                            continue;
+                        }
+                        tried += 1;
+                        let mut w = map.to_disk(grid.pts[k]);
+                        for m in chain.maps() {
+                            w = forward(m, w);
+                        }
+                        if w.norm().is_nan() || w.norm() >= 1.0 - UNREACHED {
+                            // Behind a neck narrower than the frame resolves: left for the
+                            // pass over what remains (a pocket, for 4 < κ < 8).
+                            grid.unreached[k] = true;
+                            rd.unreached_points += 1;
+                            continue;
+                        }
+                        let rot = (1.0 - w.conj()) / (1.0 - w);
+                        let m = DiskMap::Mobius {
+                            c: w,
+                            rot: rot / rot.norm(),
+                        };
+                        let tip_w = Complex64::from_polar(1.0, theta);
+                        let stretch = (1.0 - w.norm_sqr()) / (1.0 - w.conj() * tip_w).norm_sqr();
+                        let b = forward(&m, tip_w).arg();
+                        let new_theta = if theta >= 0.0 {
+                            b.rem_euclid(TWO_PI)
+                        } else {
+                            -(-b).rem_euclid(TWO_PI)
+                        };
+                        if closing && TWO_PI - new_theta.abs() < s.retarget_gap {
+                            // The excursion surrounds this point too (it sees most of the
+                            // boundary as the excursion's inner side).
+                            continue;
+                        }
+                        theta = new_theta;
+                        chain.push(m);
+                        scale /= stretch;
+                        target = k;
+                        rd.retargets += 1;
+                        moved = true;
+                        break 'search;
+                    }
+                    if tried > 400 || cands.len() < want {
+                        break;
+                    }
+                    want *= 4;
+                }
+                if !moved && closing {
+                    // Nothing with room outside the excursion: let the loop close around the
+                    // target (searching again at every step would find nothing new).
+                    no_outside = true;
+                }
+                if !moved && !closing {
+                    break; // the region is explored
+                }
+            }
+            // Step length: the tip moves about `spacing` in the plane.
+            let want = s.spacing / (2.0 * scale);
+            let mut h = (want * want).min(s.h_max).min(4.0 * h_prev);
+            // The driving angle can move about ±2√(κh) in the step: the boundary arc it can
+            // reach must map within 1.5 spacings of the tip in the plane (near the force point
+            // that arc can hide a long stretch of the excursion, and a visit of 0 jumps the tip
+            // back to the force point). The step is chosen before it is drawn, from the current
+            // state only, so the law of θ is untouched.
+            let tip_now = *trace.last().unwrap_or(&start);
+            let n = chain.len();
+            let probe = |a: f64| map.to_plane(chain.apply_prefix(n, Complex64::from_polar(1.0, a)));
+            while h > 1e-14 {
+                let r = PROBE_REACH * (kappa * h).sqrt();
+                let far = (probe(theta + r) - tip_now)
+                    .norm()
+                    .max((probe(theta - r) - tip_now).norm());
+                if far <= 1.5 * s.spacing {
+                    break;
+                }
+                h *= 0.25;
+            }
+            let h = h.max(1e-14);
+            let st = self.process.step(theta, h, g);
+            if st.visit == EndVisit::None {
+                let side = if st.theta >= 0.0 { -1.0 } else { 1.0 };
+                self.push_step(
+                    RadialStep::new(st.theta, h),
+                    side,
+                    &mut chain,
+                    &map,
+                    &mut trace,
+                    &mut grid,
+                    &mut scale,
+                );
+                diag.steps += 1;
+                h_prev = h;
+                theta = st.theta;
+                continue;
+            }
+            // A visit of an end: the tip went back to the force point (from its own side at 0,
+            // from the other side at 2π), which closes the excursion. In the chain the tip may
+            // have stopped at a neck narrower than the steps resolve, with the force point at
+            // the bottom of the fjord behind it; in the continuum the tip would close that
+            // neck, swallowing the fjord, and the force point would collapse onto the tip.
+            // So the loop closes where the tip is: the frame is rotated to put the tip at
+            // angle 0, the new force point, and θ continues from its value after the visit
+            // (a time shift of at most one step, the scheme's own resolution).
+            let full = st.visit == EndVisit::Full;
+            let sign = if full {
+                if theta < 0.0 {
+                    -1.0
+                } else {
+                    1.0
+                }
+            } else if st.theta < 0.0 {
+                -1.0
+            } else {
+                1.0
+            };
+            chain.push(DiskMap::Mobius {
+                c: Complex64::new(0.0, 0.0),
+                rot: Complex64::from_polar(1.0, -theta),
+            });
+            h_prev = h;
+            let end = trace.len() - 1;
+            if !full {
+                let poly = loop_polyline(&trace, exc_start, end, s.spacing, kappa > 4.0);
+                self.closed(&poly, depth, inner_parent, &mut grid, &mut out);
+                exc_start = end;
+                no_outside = false;
+                theta = st.theta;
+                continue;
+            }
+            // A loop closed around the target: the exploration continues inside it, and what
+            // is outside is lost (module docs).
+            rd.closed_around_target += 1;
+            let poly = loop_polyline(&trace, exc_start, end, s.spacing, kappa > 4.0);
+            // The unexplored outside is left to the pass over what remains (a fresh CLE there,
+            // by target invariance: an exploration towards a point outside would restart there).
+            rd.lost_points += grid.remove(&poly, false, s.stop_room);
+            if diameter(&poly) >= s.min_size {
+                out.loops.push(FoundLoop {
+                    points: poly,
+                    depth: depth + 1,
+                    parent_local: inner_parent,
+                });
+                inner_parent = Some(out.loops.len() - 1);
+                depth += 1;
+            } else {
+                break; // the rest of the region is inside a loop smaller than ε
+            }
+            exc_start = end;
+            no_outside = false;
+            theta = sign * (TWO_PI - st.theta.abs());
+        }
+        rd.longest_chain = rd.longest_chain.max(chain.len() as u64);
+        // What is left: the free components of the region minus the trace (module docs).
+        let r_block = 0.5 * s.spacing;
+        let mut raster = Raster::new(task.poly.as_deref(), 0.5 * s.spacing, r_block);
+        raster.block_polyline(&trace, r_block, false);
+        for c in raster.components(2.0 * raster.px) {
+            // Its loops: the region's loops around it; the innermost is the deepest.
+            let around = out
+                .loops
+                .iter()
+                .enumerate()
+                .filter(|(_, l)| winding_number(&l.points, c.centre) != 0)
+                .max_by_key(|(_, l)| l.depth);
+            let (depth, parent_local) = match around {
+                Some((i, l)) => (l.depth, Some(i)),
+                None => (task.depth, None),
+            };
+            out.children.push(ChildRegion {
+                outline: c.outline,
+                centre: c.centre,
+                room: c.room,
+                depth,
+                parent_local,
+            });
+        }
+        let _ = kappa;
+        if let Ok(path) = std::env::var("SLEEK_DUMP") {
+            // Development aid: every region's trace, lines `region x y`
+            // (`examples/trace_dump_view.rs` draws them).
+            use std::io::Write;
+            if let Ok(mut f) = std::fs::OpenOptions::new()
+                .create(true)
+                .append(true)
+                .open(path)
+            {
+                for z in &trace {
+                    let _ = writeln!(f, "{} {} {}", rd.regions, z.re, z.im);
+                }
+            }
+        }
+        out
+    }
+
+    /// Push one step (driving angle in the frame, force point at angle 0) and rotate so that the
+    /// force point, moved to its image on `side` of the slit's base, is at 0 again; record the
+    /// tip in the plane and update the scale estimate.
+    #[allow(clippy::too_many_arguments)]
+    fn push_step(
+        &self,
+        step: RadialStep,
+        side: f64,
+        chain: &mut DiskChain,
+        map: &PlaneMap,
+        trace: &mut Vec<Complex64>,
+        grid: &mut Grid,
+        scale: &mut f64,
+    ) {
+        let tip = map.to_plane(chain.apply_prefix(chain.len(), step.tip()));
+        let eta = step.forward_boundary_angle(0.0, side);
+        chain.push(DiskMap::Step {
+            step,
+            rot: Complex64::from_polar(1.0, -eta),
+        });
+        if let Some(&prev) = trace.last() {
+            let d = (tip - prev).norm();
+            // The slit of radial time h has length ≈ 2√h in the frame.
+            let est = d / (2.0 * step.dt.sqrt());
+            if est.is_finite() && est > 0.0 {
+                *scale = est;
+            }
+        }
+        trace.push(tip);
+        grid.touch(tip);
+    }
+
+    /// An excursion closed with the target outside it: keep it if it is large enough, and take
+    /// its interior out of the region (it becomes a region of its own).
+    fn closed(
+        &self,
+        pts: &[Complex64],
+        depth: u32,
+        parent_local: Option<usize>,
+        grid: &mut Grid,
+        out: &mut RegionResult,
+    ) {
+        if pts.len() < 3 || diameter(pts) < self.settings.min_size {
+            return;
+        }
+        grid.remove(pts, true, self.settings.stop_room);
+        out.loops.push(FoundLoop {
+            points: pts.to_vec(),
+            depth: depth + 1,
+            parent_local,
+        });
+    }
+}
+
+/// The loop closed at step `end` of an excursion that started at step `start` of `trace`.
+///
+/// In the continuum the tip closes the loop at the excursion's start. In the chain it may stop
+/// at a neck narrower than the steps resolve, with the start at the bottom of a fjord behind it
+/// (see the visit handling in `explore`). For 4 < κ < 8 (`retrace`) the loop is then closed
+/// through the neck, at the excursion's trace point nearest the tip, and back along the trace
+/// from there to the start (the fjord's wall), instead of by a chord across whatever lies
+/// between: the loop touches itself along that stretch, as these loops do. For κ ≤ 4 the loop
+/// closes by its chord (its trace does not touch itself).
+fn loop_polyline(
+    trace: &[Complex64],
+    start: usize,
+    end: usize,
+    spacing: f64,
+    retrace: bool,
+) -> Vec<Complex64> {
+    let mut v = trace[start..=end].to_vec();
+    let tip = trace[end];
+    if !retrace || (tip - trace[start]).norm() <= 2.0 * spacing || end < start + 4 {
+        return v;
+    }
+    let (j, _) = (start..end - 3)
+        .map(|i| (i, (trace[i] - tip).norm()))
+        .fold((start, f64::INFINITY), |a, b| if b.1 < a.1 { b } else { a });
+    // start → … → tip → j → j−1 → … → start + 1 (the polygon closes to start).
+    v.extend(trace[start + 1..=j].iter().rev().copied());
+    v
+}
+
+/// A raster of a region at resolution `px`: pixels within `r` of the trace or outside the
+/// region are blocked; the free pixels fall into connected components (4-neighbours), the
+/// regions left to explore after a region's exploration (loop interiors, and for 4 < κ < 8 the
+/// pockets the trace cut off).
+struct Raster {
+    x0: f64,
+    y0: f64,
+    px: f64,
+    nx: usize,
+    ny: usize,
+    /// 0 blocked, 1 free.
+    free: Vec<bool>,
+}
+
+/// A free component of a [`Raster`].
+struct Component {
+    /// Its outer boundary, counterclockwise, along pixel edges (module docs of the raster).
+    outline: Vec<Complex64>,
+    /// The free pixel farthest from the blocked ones, and that distance.
+    centre: Complex64,
+    room: f64,
+}
+
+impl Raster {
+    fn new(poly: Option<&[Complex64]>, px: f64, margin: f64) -> Self {
+        let (x0, x1, y0, y1) = match poly {
+            None => (-1.0, 1.0, -1.0, 1.0),
+            Some(v) => {
+                let (mut x0, mut x1, mut y0, mut y1) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
+                for z in v {
+                    x0 = x0.min(z.re);
+                    x1 = x1.max(z.re);
+                    y0 = y0.min(z.im);
+                    y1 = y1.max(z.im);
+                }
+                (x0, x1, y0, y1)
+            }
+        };
+        let nx = ((x1 - x0) / px).ceil() as usize + 2;
+        let ny = ((y1 - y0) / px).ceil() as usize + 2;
+        let (x0, y0) = (x0 - px, y0 - px);
+        let mut r = Raster {
+            x0,
+            y0,
+            px,
+            nx,
+            ny,
+            free: vec![false; nx * ny],
+        };
+        // Inside the region: the disk, or the polygon by scanlines (crossings of each row).
+        match poly {
+            None => {
+                for j in 0..ny {
+                    for i in 0..nx {
+                        if r.centre(i, j).norm() < 1.0 - margin {
+                            r.free[j * nx + i] = true;
+                        }
+                    }
+                }
+            }
+            Some(v) => {
+                let n = v.len();
+                let mut xs: Vec<f64> = Vec::new();
+                for j in 0..ny {
+                    let y = r.centre(0, j).im;
+                    xs.clear();
+                    for k in 0..n {
+                        let (a, b) = (v[k], v[(k + 1) % n]);
+                        if (a.im <= y) != (b.im <= y) {
+                            xs.push(a.re + (y - a.im) / (b.im - a.im) * (b.re - a.re));
+                        }
+                    }
+                    xs.sort_by(f64::total_cmp);
+                    for pair in xs.chunks(2) {
+                        if pair.len() < 2 {
+                            break;
+                        }
+                        let i0 = ((pair[0] - x0) / px - 0.5).ceil().max(0.0) as usize;
+                        let i1 = ((pair[1] - x0) / px - 0.5).floor();
+                        if i1 < 0.0 {
+                            continue;
+                        }
+                        for i in i0..=(i1 as usize).min(nx - 1) {
+                            r.free[j * nx + i] = true;
+                        }
+                    }
+                }
+                r.block_polyline(v, margin, true);
+            }
+        }
+        r
+    }
+
+    fn centre(&self, i: usize, j: usize) -> Complex64 {
+        Complex64::new(
+            self.x0 + (i as f64 + 0.5) * self.px,
+            self.y0 + (j as f64 + 0.5) * self.px,
+        )
+    }
+
+    /// Block the pixels whose centres are within `r` of the segment `[a, b]`.
+    fn block_segment(&mut self, a: Complex64, b: Complex64, r: f64) {
+        let px = self.px;
+        let lo = |u: f64, o: f64| (((u - r - o) / px - 0.5).floor().max(0.0)) as usize;
+        let hi = |u: f64, o: f64, n: usize| {
+            ((((u + r - o) / px - 0.5).ceil()).max(0.0) as usize).min(n - 1)
+        };
+        let (i0, i1) = (
+            lo(a.re.min(b.re), self.x0),
+            hi(a.re.max(b.re), self.x0, self.nx),
+        );
+        let (j0, j1) = (
+            lo(a.im.min(b.im), self.y0),
+            hi(a.im.max(b.im), self.y0, self.ny),
+        );
+        let d = b - a;
+        let l2 = d.norm_sqr();
+        for j in j0..=j1 {
+            for i in i0..=i1 {
+                let z = self.centre(i, j);
+                let t = if l2 > 0.0 {
+                    (((z - a) * d.conj()).re / l2).clamp(0.0, 1.0)
+                } else {
+                    0.0
+                };
+                if (a + d * t - z).norm() <= r {
+                    self.free[j * self.nx + i] = false;
+                }
+            }
+        }
+    }
+
+    /// Block a closed or open polyline.
+    fn block_polyline(&mut self, v: &[Complex64], r: f64, closed: bool) {
+        if v.len() == 1 {
+            self.block_segment(v[0], v[0], r);
+        }
+        for w in v.windows(2) {
+            self.block_segment(w[0], w[1], r);
+        }
+        if closed && v.len() > 2 {
+            self.block_segment(v[v.len() - 1], v[0], r);
+        }
+    }
+
+    /// The free components whose room (distance from blocked pixels, by a two-pass chamfer
+    /// transform within 8% of the Euclidean one) reaches `min_room`.
+    fn components(&self, min_room: f64) -> Vec<Component> {
+        let (nx, ny) = (self.nx, self.ny);
+        // Chamfer 3-4 distance in pixel units ×3.
+        let big = u32::MAX / 4;
+        let mut dt: Vec<u32> = self.free.iter().map(|&f| if f { big } else { 0 }).collect();
+        for j in 0..ny {
+            for i in 0..nx {
+                let k = j * nx + i;
+                if dt[k] == 0 {
+                    continue;
+                }
+                let mut m = dt[k];
+                if i > 0 {
+                    m = m.min(dt[k - 1] + 3);
+                }
+                if j > 0 {
+                    m = m.min(dt[k - nx] + 3);
+                    if i > 0 {
+                        m = m.min(dt[k - nx - 1] + 4);
+                    }
+                    if i + 1 < nx {
+                        m = m.min(dt[k - nx + 1] + 4);
+                    }
+                }
+                dt[k] = m;
+            }
+        }
+        for j in (0..ny).rev() {
+            for i in (0..nx).rev() {
+                let k = j * nx + i;
+                if dt[k] == 0 {
+                    continue;
+                }
+                let mut m = dt[k];
+                if i + 1 < nx {
+                    m = m.min(dt[k + 1] + 3);
+                }
+                if j + 1 < ny {
+                    m = m.min(dt[k + nx] + 3);
+                    if i + 1 < nx {
+                        m = m.min(dt[k + nx + 1] + 4);
+                    }
+                    if i > 0 {
+                        m = m.min(dt[k + nx - 1] + 4);
+                    }
+                }
+                dt[k] = m;
+            }
+        }
+        let mut label = vec![u32::MAX; nx * ny];
+        let mut out = Vec::new();
+        let mut stack = Vec::new();
+        let mut members = Vec::new();
+        for start in 0..nx * ny {
+            if !self.free[start] || label[start] != u32::MAX {
+                continue;
+            }
+            let id = out.len() as u32 + 1_000_000;
+            members.clear();
+            stack.push(start);
+            label[start] = id;
+            let mut best = start;
+            while let Some(k) = stack.pop() {
+                members.push(k);
+                if dt[k] > dt[best] {
+                    best = k;
+                }
+                let (i, j) = (k % nx, k / nx);
+                let mut visit = |q: usize| {
+                    if self.free[q] && label[q] == u32::MAX {
+                        label[q] = id;
+                        stack.push(q);
+                    }
+                };
+                if i > 0 {
+                    visit(k - 1);
+                }
+                if i + 1 < nx {
+                    visit(k + 1);
+                }
+                if j > 0 {
+                    visit(k - nx);
+                }
+                if j + 1 < ny {
+                    visit(k + nx);
+                }
+            }
+            let room = dt[best] as f64 / 3.0 * self.px;
+            if room < min_room {
+                // Mark it done (labels already set) and move on.
+                out.push(None);
+                continue;
+            }
+            let outline = self.outline(&label, id, &members);
+            out.push(Some(Component {
+                outline,
+                centre: self.centre(best % nx, best / nx),
+                room,
+            }));
+        }
+        out.into_iter().flatten().collect()
+    }
+
+    /// The outer boundary of the component `id` along pixel edges, counterclockwise, each
+    /// corner pulled a twentieth of a pixel towards the pixel on its left so that a corner
+    /// passed twice (two pixels of the component touching diagonally) gives two distinct
+    /// vertices and the polygon stays simple.
+    fn outline(&self, label: &[u32], id: u32, members: &[usize]) -> Vec<Complex64> {
+        let nx = self.nx;
+        let inside = |i: i64, j: i64| -> bool {
+            i >= 0
+                && j >= 0
+                && (i as usize) < nx
+                && (j as usize) < self.ny
+                && label[j as usize * nx + i as usize] == id
+        };
+        // Directed edges with the component on the left, keyed by their start corner.
+        let mut out_edges: HashMap<(i64, i64), Vec<(i64, i64)>> = HashMap::new();
+        for &k in members {
+            let (i, j) = ((k % nx) as i64, (k / nx) as i64);
+            // Corners of pixel (i, j): (i, j) lower left … (i+1, j+1) upper right.
+            if !inside(i, j - 1) {
+                out_edges.entry((i, j)).or_default().push((1, 0));
+            }
+            if !inside(i + 1, j) {
+                out_edges.entry((i + 1, j)).or_default().push((0, 1));
+            }
+            if !inside(i, j + 1) {
+                out_edges.entry((i + 1, j + 1)).or_default().push((-1, 0));
+            }
+            if !inside(i - 1, j) {
+                out_edges.entry((i, j + 1)).or_default().push((0, -1));
+            }
+        }
+        let mut best: Vec<Complex64> = Vec::new();
+        let mut best_area = 0.0;
+        let keys: Vec<(i64, i64)> = {
+            let mut k: Vec<_> = out_edges.keys().copied().collect();
+            k.sort();
+            k
+        };
+        for start in keys {
+            while out_edges.get(&start).is_some_and(|v| !v.is_empty()) {
+                let mut cyc: Vec<Complex64> = Vec::new();
+                let mut c = start;
+                let mut dir_in: Option<(i64, i64)> = None;
+                while let Some(v) = out_edges.get_mut(&c) {
+                    if v.is_empty() {
+                        break;
+                    }
+                    // Prefer the left turn, then straight on, then the right turn.
+                    let pick = match dir_in {
+                        None => 0,
+                        Some(d) => {
+                            let score = |e: &(i64, i64)| {
+                                let cross = d.0 * e.1 - d.1 * e.0;
+                                let dot = d.0 * e.0 + d.1 * e.1;
+                                if cross > 0 {
+                                    0
+                                } else if dot > 0 {
+                                    1
+                                } else {
+                                    2
+                                }
+                            };
+                            (0..v.len()).min_by_key(|&q| score(&v[q])).unwrap_or(0)
+                        }
+                    };
+                    let e = v.swap_remove(pick);
+                    // The pixel on the left of edge e from corner c.
+                    let left = Complex64::new(
+                        c.0 as f64 + 0.5 * (e.0 - e.1) as f64,
+                        c.1 as f64 + 0.5 * (e.1 + e.0) as f64,
+                    );
+                    let corner = Complex64::new(c.0 as f64, c.1 as f64);
+                    let p = corner + (left - corner) * 0.05;
+                    cyc.push(Complex64::new(
+                        self.x0 + p.re * self.px,
+                        self.y0 + p.im * self.px,
+                    ));
+                    dir_in = Some(e);
+                    c = (c.0 + e.0, c.1 + e.1);
+                    if c == start {
+                        break;
+                    }
+                }
+                let a = signed_area(&cyc);
+                if a > best_area {
+                    best_area = a;
+                    best = cyc;
+                }
+            }
+        }
+        best
+    }
+}
