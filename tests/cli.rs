@@ -524,3 +524,76 @@ fn lattice_and_measure_do_not_depend_on_threads() {
     assert!(outs[0].1 == outs[1].1, "driving-function exports differ");
     assert_eq!(outs[0].2, outs[1].2);
 }
+
+#[test]
+fn loops_rejects_bad_input_in_one_line() {
+    assert_usage_error(
+        &["loops", "--kappa", "9"],
+        &["kappa = 9", "8/3 < kappa < 8"],
+    );
+    assert_usage_error(&["loops", "--kappa", "8/3"], &["kappa"]);
+    assert_usage_error(
+        &["loops", "--kappa", "6", "--min-size", "0.001"],
+        &["min-size = 0.001", "0.01 <= min-size <= 1"],
+    );
+    assert_usage_error(
+        &["loops", "--kappa", "6", "--at", "1,0.5"],
+        &["--at 1,0.5", "inside the unit disk"],
+    );
+    assert_usage_error(
+        &["loops", "--kappa", "6", "--plot", "x.txt"],
+        &["--plot x.txt", ".svg or .png"],
+    );
+}
+
+/// `sleek loops` writes the documented JSON layout and a CSV whose rows are the loops' vertices.
+#[test]
+fn loops_exports_have_the_documented_layout() {
+    let dir = tempfile::tempdir().unwrap();
+    let json = dir.path().join("c.json");
+    let csv = dir.path().join("c.csv");
+    let svg = dir.path().join("c.svg");
+    let (code, out, err) = run(&[
+        "loops",
+        "--kappa",
+        "6",
+        "--min-size",
+        "0.4",
+        "--seed",
+        "2",
+        "--at",
+        "0,0",
+        "--export-json",
+        json.to_str().unwrap(),
+        "--export-csv",
+        csv.to_str().unwrap(),
+        "--plot",
+        svg.to_str().unwrap(),
+        "--quiet",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    assert!(out.contains("loops of diameter ≥ ε"), "{out}");
+    assert!(out.contains("resolution: spacing"), "{out}");
+    let v: serde_json::Value = serde_json::from_slice(&std::fs::read(&json).unwrap()).unwrap();
+    assert_eq!(v["kappa"], 6.0);
+    assert_eq!(v["seed"], 2);
+    assert_eq!(v["min_size"], 0.4);
+    assert!(v["settings"]["spacing"].as_f64().unwrap() > 0.0);
+    let loops = v["loops"].as_array().unwrap();
+    assert!(!loops.is_empty());
+    let mut vertices = 0;
+    for l in loops {
+        assert!(l["id"].is_u64() && l["depth"].as_u64().unwrap() >= 1);
+        assert!(l["parent"].is_null() || l["parent"].is_u64());
+        let pts = l["points"].as_array().unwrap();
+        assert!(pts.len() >= 3);
+        assert_eq!(pts[0].as_array().unwrap().len(), 2);
+        vertices += pts.len();
+    }
+    let text = std::fs::read_to_string(&csv).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(lines.next(), Some("loop,parent,depth,vertex,x,y"));
+    assert_eq!(lines.count(), vertices);
+    let svg_text = std::fs::read_to_string(&svg).unwrap();
+    assert!(svg_text.contains("<svg"));
+}

@@ -1,0 +1,149 @@
+//! Whole CLE_κ configurations (`sleek::regions`): reproducibility, nesting structure and the
+//! geometry that distinguishes κ ≤ 4 from 4 < κ < 8.
+//!
+//! The configurations are small (ε = 0.3, a few seconds each); what is checked holds for every
+//! configuration, so one seed per κ is a test, not a sample.
+
+use num_complex::Complex64;
+use sleek::loops::{CleLoop, LoopConfiguration};
+use sleek::polygon::winding_number;
+use sleek::regions::{RegionSampler, RegionSettings};
+
+fn sample(kappa: f64, eps: f64, seed: u64) -> LoopConfiguration {
+    let s = RegionSettings::defaults(eps);
+    RegionSampler::new(kappa, s)
+        .expect("valid settings")
+        .sample(seed, 0)
+        .0
+}
+
+/// Whether two polylines (closed) have a proper crossing of two segments.
+fn cross(a: &[Complex64], b: &[Complex64]) -> bool {
+    let o = |p: Complex64, q: Complex64, r: Complex64| ((q - p).conj() * (r - p)).im;
+    for i in 0..a.len() {
+        let (p, q) = (a[i], a[(i + 1) % a.len()]);
+        for j in 0..b.len() {
+            let (r, s) = (b[j], b[(j + 1) % b.len()]);
+            if o(p, q, r) * o(p, q, s) < 0.0 && o(r, s, p) * o(r, s, q) < 0.0 {
+                return true;
+            }
+        }
+    }
+    false
+}
+
+/// Smallest distance between vertices of two polylines.
+fn vertex_gap(a: &[Complex64], b: &[Complex64]) -> f64 {
+    let mut m = f64::INFINITY;
+    for p in a {
+        for q in b {
+            m = m.min((p - q).norm());
+        }
+    }
+    m
+}
+
+fn check_structure(c: &LoopConfiguration, eps: f64) {
+    for (i, l) in c.loops.iter().enumerate() {
+        assert_eq!(l.id, i, "loop ids are positions");
+        assert!(
+            l.diameter >= eps,
+            "loop {i} has diameter {} < ε",
+            l.diameter
+        );
+        assert!(
+            l.points.iter().all(|z| z.norm() < 1.0),
+            "loop {i} leaves the disk"
+        );
+        match l.parent {
+            None => assert_eq!(l.depth, 1, "loop {i} has no parent but depth {}", l.depth),
+            Some(p) => {
+                assert!(p < i, "parents come before their children");
+                let parent: &CleLoop = &c.loops[p];
+                assert_eq!(l.depth, parent.depth + 1, "depth of loop {i}");
+                // The child lies inside its parent: most of its vertices are surrounded.
+                let inside = l
+                    .points
+                    .iter()
+                    .filter(|&&z| winding_number(&parent.points, z) != 0)
+                    .count();
+                assert!(
+                    inside * 10 >= l.points.len() * 9,
+                    "loop {i}: only {inside} of {} vertices inside its parent {p}",
+                    l.points.len()
+                );
+            }
+        }
+    }
+}
+
+#[test]
+fn a_configuration_is_a_function_of_the_seed() {
+    let a = sample(3.0, 0.3, 11);
+    let b = sample(3.0, 0.3, 11);
+    assert_eq!(a.loops.len(), b.loops.len());
+    for (x, y) in a.loops.iter().zip(&b.loops) {
+        assert_eq!(x.points, y.points);
+        assert_eq!((x.parent, x.depth), (y.parent, y.depth));
+    }
+    check_structure(&a, 0.3);
+}
+
+/// For κ ≤ 4 the loops are simple and pairwise disjoint (Rohde & Schramm, Ann. Math. 2005 for
+/// the simple SLE_κ traces; Sheffield & Werner, Ann. Math. 2012 for disjointness of CLE_κ
+/// loops): no two closed loops cross. (Their own polylines are not always simple at the
+/// spacing: the discrete trace can cross itself where a step's slit attaches beside the
+/// previous tip; that is not checked here.)
+#[test]
+fn kappa_three_loops_do_not_cross_each_other() {
+    let c = sample(3.0, 0.3, 5);
+    check_structure(&c, 0.3);
+    let closed: Vec<&CleLoop> = c.loops.iter().filter(|l| l.closed).collect();
+    assert!(!closed.is_empty(), "no closed loop at κ = 3, seed 5");
+    for (i, a) in closed.iter().enumerate() {
+        for b in &closed[i + 1..] {
+            assert!(
+                !cross(&a.points, &b.points),
+                "loops {} and {} cross",
+                a.id,
+                b.id
+            );
+        }
+    }
+}
+
+/// For 4 < κ < 8 the loops touch each other (Sheffield, Duke Math. J. 2009, the exploration
+/// tree; the touching of CLE_κ loops for κ ∈ (4, 8) is quoted from memory): some pair of loops
+/// comes within a spacing of each other, and the loops still do not cross.
+#[test]
+fn kappa_six_loops_touch_without_crossing() {
+    let eps = 0.3;
+    let spacing = RegionSettings::defaults(eps).spacing;
+    let c = sample(6.0, eps, 1);
+    check_structure(&c, eps);
+    let closed: Vec<&CleLoop> = c.loops.iter().filter(|l| l.closed).collect();
+    assert!(closed.len() >= 3, "only {} closed loops", closed.len());
+    let mut touching = 0;
+    for (i, a) in closed.iter().enumerate() {
+        for b in &closed[i + 1..] {
+            if vertex_gap(&a.points, &b.points) <= spacing {
+                touching += 1;
+            }
+            assert!(
+                !cross(&a.points, &b.points),
+                "loops {} and {} cross",
+                a.id,
+                b.id
+            );
+        }
+    }
+    assert!(touching > 0, "no two loops come within a spacing");
+}
+
+#[test]
+fn bad_settings_name_the_value() {
+    let e = RegionSampler::new(8.5, RegionSettings::defaults(0.1)).unwrap_err();
+    assert!(e.to_string().contains("kappa = 8.5"), "{e}");
+    let e = RegionSampler::new(3.0, RegionSettings::defaults(0.001)).unwrap_err();
+    assert!(e.to_string().contains("min-size = 0.001"), "{e}");
+}
