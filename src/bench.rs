@@ -290,3 +290,80 @@ pub fn run_cle(kappas: &[f64], samples: u64, seed: u64) -> Result<Vec<CleTiming>
     }
     Ok(out)
 }
+
+/// One timing of a whole CLE_κ configuration ([`crate::regions`]).
+#[derive(Debug, Clone, Serialize)]
+pub struct LoopsTiming {
+    /// κ.
+    pub kappa: f64,
+    /// ε (`min_size`).
+    pub min_size: f64,
+    /// Wall-clock seconds (one thread: a configuration is sequential).
+    pub seconds: f64,
+    /// Loops of diameter ≥ ε found.
+    pub loops: usize,
+    /// Loops per second.
+    pub loops_per_second: f64,
+    /// Exploration steps, all regions.
+    pub steps: u64,
+    /// Steps per second.
+    pub steps_per_second: f64,
+    /// Regions explored.
+    pub regions: u64,
+    /// Peak resident memory of the process after the run, MiB (Linux only).
+    pub peak_mib: Option<f64>,
+}
+
+/// Time one configuration for each (κ, ε) with `seed`, largest ε first.
+///
+/// Errors: [`crate::Error::InvalidParameter`] for κ or ε out of range.
+pub fn run_loops(kappas: &[f64], sizes: &[f64], seed: u64) -> Result<Vec<LoopsTiming>> {
+    let mut out = Vec::new();
+    for &kappa in kappas {
+        for &eps in sizes {
+            let sampler = crate::regions::RegionSampler::new(
+                kappa,
+                crate::regions::RegionSettings::defaults(eps),
+            )?;
+            let t = std::time::Instant::now();
+            let (c, rd) = sampler.sample(seed, 0);
+            let seconds = t.elapsed().as_secs_f64();
+            out.push(LoopsTiming {
+                kappa,
+                min_size: eps,
+                seconds,
+                loops: c.loops.len(),
+                loops_per_second: c.loops.len() as f64 / seconds,
+                steps: c.diagnostics.steps,
+                steps_per_second: c.diagnostics.steps as f64 / seconds,
+                regions: rd.regions,
+                peak_mib: peak_memory_mib(),
+            });
+        }
+    }
+    Ok(out)
+}
+
+/// Least-squares slope of `log seconds` against `log(1/ε)` for one κ, and the time it predicts
+/// at `target` ε (an extrapolation, reported as such).
+pub fn loops_scaling(rows: &[LoopsTiming], kappa: f64, target: f64) -> Option<(f64, f64)> {
+    let pts: Vec<(f64, f64)> = rows
+        .iter()
+        .filter(|r| r.kappa == kappa && r.seconds > 0.0)
+        .map(|r| ((1.0 / r.min_size).ln(), r.seconds.ln()))
+        .collect();
+    if pts.len() < 2 {
+        return None;
+    }
+    let n = pts.len() as f64;
+    let mx = pts.iter().map(|p| p.0).sum::<f64>() / n;
+    let my = pts.iter().map(|p| p.1).sum::<f64>() / n;
+    let sxx: f64 = pts.iter().map(|p| (p.0 - mx).powi(2)).sum();
+    let sxy: f64 = pts.iter().map(|p| (p.0 - mx) * (p.1 - my)).sum();
+    if sxx <= 0.0 {
+        return None;
+    }
+    let slope = sxy / sxx;
+    let at = (my + slope * ((1.0 / target).ln() - mx)).exp();
+    Some((slope, at))
+}

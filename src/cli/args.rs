@@ -285,6 +285,11 @@ pub struct BenchArgs {
     /// Runs per CLE timing (with --cle).
     #[arg(long, default_value = "1000", value_parser = parse_count)]
     pub cle_samples: u64,
+    /// Time whole CLE configurations (`sleek loops`) instead: one per κ ∈ {3, 6} and
+    /// ε ∈ {0.4, 0.3, 0.2}, with loops and steps per second, peak memory, and the time at
+    /// ε = 0.02 extrapolated from the fitted scaling (about two minutes).
+    #[arg(long, conflicts_with_all = ["radial", "cle"])]
+    pub loops: bool,
 }
 
 #[derive(ValueEnum, Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]

@@ -10,6 +10,9 @@ pub fn run(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
     if a.cle {
         return run_cle(g, a);
     }
+    if a.loops {
+        return run_loops(g);
+    }
     let mut s = BenchSettings::default();
     s.fast_only.retain(|&n| n as u64 <= a.max_n);
     s.common.retain(|&n| n as u64 <= a.max_n);
@@ -150,6 +153,76 @@ fn run_cle(g: &Global, a: &BenchArgs) -> Result<(), Failure> {
 
 /// Write the JSON record to `--out/<name>` when given, and print it with --json; true when it was
 /// printed (the table is then skipped).
+fn run_loops(g: &Global) -> Result<(), Failure> {
+    let kappas = [3.0, 6.0];
+    let sizes = [0.4, 0.3, 0.2];
+    let seed = g.seed.unwrap_or(1);
+    note(
+        g,
+        "timing whole CLE configurations (one per row, one thread each, seed fixed)",
+    );
+    let rows = bench::run_loops(&kappas, &sizes, seed)?;
+    let fits: Vec<serde_json::Value> = kappas
+        .iter()
+        .filter_map(|&k| {
+            bench::loops_scaling(&rows, k, 0.02).map(|(slope, at)| {
+                serde_json::json!({"kappa": k, "exponent": slope, "extrapolated_seconds_at_0.02": at})
+            })
+        })
+        .collect();
+    super::common::warn_non_finite(&rows, "bench record");
+    let rec = serde_json::json!({
+        "format": "sleek/bench-loops",
+        "format_version": sleek::io::FORMAT_VERSION,
+        "sleek_version": env!("CARGO_PKG_VERSION"),
+        "seed": seed,
+        "note": "one configuration per row (timings of one seed vary with the configuration); \
+                 the time at min_size 0.02 is extrapolated from a power law fitted to these \
+                 rows, not measured",
+        "rows": rows,
+        "scaling": fits,
+    });
+    if write_record(g, "bench-loops.json", &rec)? {
+        return Ok(());
+    }
+    out!("whole CLE configurations (sleek loops), seed {seed}, one thread each");
+    out!(
+        "{:>6}  {:>5}  {:>9}  {:>6}  {:>9}  {:>9}  {:>10}  {:>8}",
+        "κ",
+        "ε",
+        "seconds",
+        "loops",
+        "loops/s",
+        "steps",
+        "steps/s",
+        "peak MiB"
+    );
+    for r in &rows {
+        out!(
+            "{:>6.3}  {:>5.2}  {:>9.2}  {:>6}  {:>9.3}  {:>9}  {:>10.0}  {:>8}",
+            r.kappa,
+            r.min_size,
+            r.seconds,
+            r.loops,
+            r.loops_per_second,
+            r.steps,
+            r.steps_per_second,
+            r.peak_mib
+                .map(|m| format!("{m:.0}"))
+                .unwrap_or_else(|| "-".into())
+        );
+    }
+    for &k in &kappas {
+        if let Some((slope, at)) = bench::loops_scaling(&rows, k, 0.02) {
+            out!(
+                "κ = {k}: time ∝ ε^-{slope:.2} over these rows; extrapolated to ε = 0.02: \
+                 {at:.0} s (an extrapolation, not a measurement)"
+            );
+        }
+    }
+    Ok(())
+}
+
 fn write_record(g: &Global, name: &str, rec: &serde_json::Value) -> Result<bool, Failure> {
     let text = super::common::to_json(rec, "bench record")?;
     if let Some(p) = in_out(g, name) {

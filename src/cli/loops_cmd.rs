@@ -64,6 +64,19 @@ struct LoopOut<'a> {
 
 /// Run the command.
 pub fn run(g: &Global, a: &LoopsArgs) -> Result<(), Failure> {
+    run_printing(g, a, true).map(|_| ())
+}
+
+/// Sample, write the files, and print the summary when `print`; returns the number of loops
+/// drawn (closed).
+pub fn run_printing(g: &Global, a: &LoopsArgs, print: bool) -> Result<usize, Failure> {
+    let emit = |args: std::fmt::Arguments| -> Result<(), Failure> {
+        if print {
+            emit(args)
+        } else {
+            Ok(())
+        }
+    };
     check_plot_path(a.plot.as_deref())?;
     let settings = RegionSettings::defaults(a.min_size);
     let sampler = RegionSampler::new(a.kappa, settings)?;
@@ -268,7 +281,7 @@ pub fn run(g: &Global, a: &LoopsArgs) -> Result<(), Failure> {
         fig.draw(p)?;
         note(g, &format!("wrote {}", p.display()));
     }
-    Ok(())
+    Ok(conf.loops.iter().filter(|l| l.closed).count())
 }
 
 /// κ as the user would write it: 16/3 and 8/3 as fractions, others in decimals.
