@@ -44,7 +44,10 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
         for l in &c.loops {
             *by_depth.entry(l.depth).or_insert(0) += 1;
         }
-        println!("  loops by depth: {by_depth:?}");
+        println!(
+            "  loops by depth: {by_depth:?}; {} not closed within 3 spacings",
+            c.loops.iter().filter(|l| !l.closed).count()
+        );
         // Geometry checks (Rohde & Schramm, Ann. Math. 2005; Sheffield & Werner, Ann. Math.
         // 2012): for κ ≤ 4 loops are simple and pairwise disjoint; for κ > 4 they touch.
         let not_simple = c

@@ -32,7 +32,10 @@
 //! radius of at least `stop_radius` when it closes; loops that surround no such point are
 //! missing from the picture (see *Resolution*).
 //!
-//! # Status: experimental, not used by the command line
+//! # Status: superseded by [`crate::regions`], not used by the command line
+//! `sleek loops` runs [`crate::regions`] (one exploration per region). This module keeps the
+//! types both share ([`CleLoop`], [`LoopConfiguration`]) and the grid-branching engine below as
+//! a record of what did not work and why.
 //! This replaces a version that explored regions cut out of a raster with a polygon zipper
 //! (in the history before 2026-12-03): there the pockets under arches were found on the
 //! raster, and most large loops of κ > 4 were left open. Here nothing is rasterised and a
