@@ -199,40 +199,6 @@ pub fn run(g: &Global) -> Result<(), Failure> {
         &g,
         &format!("lattice panels ({:.1} s)", start.elapsed().as_secs_f64()),
     );
-    // Whole CLE configurations (ε = 0.3). κ = 4 is left out: at this version most of its
-    // loops do not close (README, "Accuracy and limitations").
-    for (i, (kappa, name)) in [(3.0, "3"), (16.0 / 3.0, "16-3"), (6.0, "6")]
-        .into_iter()
-        .enumerate()
-    {
-        let t = std::time::Instant::now();
-        let dir = out.join("gallery");
-        let a = super::args::LoopsArgs {
-            kappa,
-            min_size: 0.3,
-            at: vec![(0.0, 0.0)],
-            export_json: Some(dir.join(format!("cle-configuration-{name}.json"))),
-            export_csv: None,
-            plot: Some(dir.join(format!("cle-configuration-{name}.png"))),
-            style: super::args::LoopStyleArg::Filled,
-        };
-        let gs = Global {
-            seed: Some(seed.wrapping_add(100 + i as u64)),
-            quiet: true,
-            ..g.clone()
-        };
-        let drawn = super::loops_cmd::run_printing(&gs, &a, false)?;
-        note(
-            &g,
-            &format!(
-                "CLE configuration κ = {name}: {drawn} loops ({:.1} s)",
-                t.elapsed().as_secs_f64()
-            ),
-        );
-        for p in [&a.plot, &a.export_json].into_iter().flatten() {
-            written.push(p.display().to_string());
-        }
-    }
     let settings = AuditSettings::quick(seed);
     let (report, elapsed) = run_audit(&g, &settings)?;
     let md = out.join("audit.md");
