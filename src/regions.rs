@@ -621,6 +621,8 @@ impl RegionSampler {
         grid.touch(start);
         let mut exc_start = 0usize;
         let mut no_outside = false;
+        let dbg = std::env::var("SLEEK_DEBUG").is_ok();
+        let mut hist: Vec<(f64, f64, f64, f64)> = Vec::new();
         // Plane length per unit of frame length at the tip (estimated from the last step).
         let mut scale = 1.0f64;
         let mut h_prev = 1e-8f64;
@@ -730,6 +732,29 @@ impl RegionSampler {
             }
             let h = h.max(1e-14);
             let st = self.process.step(theta, h, g);
+            if dbg {
+                let n = chain.len();
+                let f = map.to_plane(chain.apply_prefix(n, Complex64::new(1.0, 0.0)));
+                let tip = *trace.last().unwrap_or(&start);
+                hist.push((
+                    theta,
+                    h,
+                    (tip - trace[exc_start]).norm() / s.spacing,
+                    (tip - f).norm() / s.spacing,
+                ));
+                if st.visit != EndVisit::None {
+                    let gap = (tip - trace[exc_start]).norm() / s.spacing;
+                    if gap > 3.0 && trace.len() - exc_start > 50 {
+                        eprintln!("open excursion, {} steps:", trace.len() - exc_start);
+                        for (th, hh, d0, df) in hist.iter().rev().take(12).rev() {
+                            eprintln!(
+                                "  theta {th:.3e} h {hh:.2e} tip-start {d0:.1} tip-force {df:.1}"
+                            );
+                        }
+                    }
+                    hist.clear();
+                }
+            }
             if st.visit == EndVisit::None {
                 let side = if st.theta >= 0.0 { -1.0 } else { 1.0 };
                 self.push_step(
@@ -773,7 +798,7 @@ impl RegionSampler {
             h_prev = h;
             let end = trace.len() - 1;
             if !full {
-                let poly = loop_polyline(&trace, exc_start, end);
+                let poly = loop_polyline(&trace, exc_start, end, s.spacing);
                 self.closed(&poly, depth, inner_parent, &mut grid, &mut out);
                 exc_start = end;
                 no_outside = false;
@@ -783,7 +808,7 @@ impl RegionSampler {
             // A loop closed around the target: the exploration continues inside it, and what
             // is outside is lost (module docs).
             rd.closed_around_target += 1;
-            let poly = loop_polyline(&trace, exc_start, end);
+            let poly = loop_polyline(&trace, exc_start, end, s.spacing);
             // The unexplored outside is left to the pass over what remains (a fresh CLE there,
             // by target invariance: an exploration towards a point outside would restart there).
             rd.lost_points += grid.remove(&poly, false, s.stop_room);
@@ -899,16 +924,35 @@ impl RegionSampler {
     }
 }
 
-/// The loop closed at step `end` of an excursion that started at step `start` of `trace`: the
-/// trace between them, closed by its chord.
+/// The loop closed at step `end` of an excursion that started at step `start` of `trace`.
 ///
 /// In the continuum the tip closes the loop at the excursion's start. In the chain it often
-/// does not: at the visit of 0 the tip is typically 2–50 spacings from the start (measured;
-/// module docs), and such loops are flagged open by the caller. (Closing them back along their
-/// own trace, tried on 2026-12-03, drew doubled arcs: about half of every κ = 6 polygon was
-/// retrace.)
-fn loop_polyline(trace: &[Complex64], start: usize, end: usize) -> Vec<Complex64> {
-    trace[start..=end].to_vec()
+/// stops at the mouth of a fjord, narrower than the steps resolve, at whose bottom the start
+/// lies: the excursion's first stretch ran along older trace, and the boundary point just past
+/// the force point maps near the tip while the force point is 2–50 spacings away (measured with
+/// the step log; DEVELOPERS.md). The loop is then closed through the mouth: at the point of the
+/// excursion's first stretch (before it first leaves the ball about the start of radius the
+/// gap plus two spacings) nearest the tip, when that is within two spacings; the stretch in
+/// the fjord is left out of the loop (it stays in the trace). Otherwise the loop closes by its
+/// chord, and the caller flags it open when the chord is long.
+fn loop_polyline(trace: &[Complex64], start: usize, end: usize, spacing: f64) -> Vec<Complex64> {
+    let tip = trace[end];
+    let gap = (tip - trace[start]).norm();
+    if gap <= 2.0 * spacing || end < start + 4 {
+        return trace[start..=end].to_vec();
+    }
+    let ball = gap + 2.0 * spacing;
+    let first_out = (start..end)
+        .find(|&i| (trace[i] - trace[start]).norm() > ball)
+        .unwrap_or(end);
+    let (j, d) = (start..first_out.min(end.saturating_sub(3)))
+        .map(|i| (i, (trace[i] - tip).norm()))
+        .fold((start, f64::INFINITY), |a, b| if b.1 < a.1 { b } else { a });
+    if d <= 2.0 * spacing {
+        trace[j..=end].to_vec()
+    } else {
+        trace[start..=end].to_vec()
+    }
 }
 
 /// A raster of a region at resolution `px`: pixels within `r` of the trace or outside the
