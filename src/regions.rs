@@ -40,14 +40,15 @@
 //! * For 4 < κ < 8 the loops touch themselves; a loop's polygon is its whole trace, and its
 //!   interior components are cut apart by the raster pass.
 //!
-//! # Status: loops do not close (issue 5 open)
+//! # Status: many loops do not close (issue 5 open)
 //! The traces of the regions are clean explorations that cover the disk, but at a visit of 0
-//! the chain's tip is typically 2–50 spacings from its excursion's start, at every κ (ε = 0.2,
-//! seeds 1–3: 11 of 16 loops open at κ = 6, 8–13 of 10–20 at κ = 4, 2–4 of 5–11 at κ = 3). A
-//! loop whose chord back to its start is over [`CLOSE_GAP`] spacings is flagged open (kept in
-//! the data, not drawn). The force point is then reset to the tip (the frame rotated to put
-//! the tip at 0), so that later excursions start where the trace is. Why θ reaches 0 with the
-//! tip far from the force point in the plane is not understood yet (DEVELOPERS.md).
+//! the chain's tip is often at the mouth of a sub-resolution fjord, 2–50 spacings from its
+//! excursion's start (step log: `SLEEK_DEBUG=1`). Loops are closed through the mouth when the
+//! excursion's first stretch passes within [`CLOSE_GAP`] spacings of the tip
+//! (`loop_polyline`); the others are flagged open (kept in the data, not drawn): at ε = 0.2,
+//! seeds 1–3, 3 of 9, 3 of 5 and 3 of 8 at κ = 6; 1 of 6, 0 of 8 and 3 of 5 at κ = 3. The
+//! force point is then reset to the tip (the frame rotated to put the tip at 0), so that later
+//! excursions start where the trace is.
 
 use crate::cle::{AngleProcess, EndVisit};
 use crate::disk_fast::{DiskChain, DiskMap};
@@ -932,7 +933,7 @@ impl RegionSampler {
 /// the force point maps near the tip while the force point is 2–50 spacings away (measured with
 /// the step log; DEVELOPERS.md). The loop is then closed through the mouth: at the point of the
 /// excursion's first stretch (before it first leaves the ball about the start of radius the
-/// gap plus two spacings) nearest the tip, when that is within two spacings; the stretch in
+/// gap plus two spacings) nearest the tip, when that is within [`CLOSE_GAP`] spacings; the stretch in
 /// the fjord is left out of the loop (it stays in the trace). Otherwise the loop closes by its
 /// chord, and the caller flags it open when the chord is long.
 fn loop_polyline(trace: &[Complex64], start: usize, end: usize, spacing: f64) -> Vec<Complex64> {
@@ -948,7 +949,7 @@ fn loop_polyline(trace: &[Complex64], start: usize, end: usize, spacing: f64) ->
     let (j, d) = (start..first_out.min(end.saturating_sub(3)))
         .map(|i| (i, (trace[i] - tip).norm()))
         .fold((start, f64::INFINITY), |a, b| if b.1 < a.1 { b } else { a });
-    if d <= 2.0 * spacing {
+    if d <= CLOSE_GAP * spacing {
         trace[j..=end].to_vec()
     } else {
         trace[start..=end].to_vec()

@@ -92,8 +92,8 @@ pub enum Command {
     ///
     /// One radial SLE_κ(κ−6) exploration per region (the disk, then each loop's interior and
     /// each pocket the trace cut off, uniformised afresh by the geodesic zipper); the target
-    /// moves before a loop can close around it. First version: most loops do not return to
-    /// their start in the discrete chain; they are kept in the data with "closed": false and not
+    /// moves before a loop can close around it. First version: many loops (a third to a half)
+    /// do not return to their start in the discrete chain; they are kept in the data with "closed": false and not
     /// drawn (see the README). The loops are estimates at a stated resolution: trace points
     /// about --min-size/6 apart, and a loop whose interior has no point farther than
     /// --min-size/8 from the trace can be missed.
