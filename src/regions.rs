@@ -261,13 +261,7 @@ impl Grid {
                 }
             }
             Some(v) => {
-                let (mut x0, mut x1, mut y0, mut y1) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
-                for z in v {
-                    x0 = x0.min(z.re);
-                    x1 = x1.max(z.re);
-                    y0 = y0.min(z.im);
-                    y1 = y1.max(z.im);
-                }
+                let (x0, x1, y0, y1) = bounding_box(v);
                 for j in (y0 / g).ceil() as i64..=(y1 / g).floor() as i64 {
                     for i in (x0 / g).ceil() as i64..=(x1 / g).floor() as i64 {
                         let z = Complex64::new(i as f64 * g, j as f64 * g);
@@ -360,13 +354,7 @@ impl Grid {
     /// Mark the points inside (`inside = true`) or outside the closed polyline `v` as no longer
     /// in the remaining domain; returns how many of them were open.
     fn remove(&mut self, v: &[Complex64], inside: bool, stop_room: f64) -> u64 {
-        let (mut x0, mut x1, mut y0, mut y1) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
-        for z in v {
-            x0 = x0.min(z.re);
-            x1 = x1.max(z.re);
-            y0 = y0.min(z.im);
-            y1 = y1.max(z.im);
-        }
+        let (x0, x1, y0, y1) = bounding_box(v);
         let mut count = 0;
         for k in 0..self.pts.len() {
             if !self.alive[k] {
@@ -384,6 +372,14 @@ impl Grid {
         }
         count
     }
+}
+
+/// `(x_min, x_max, y_min, y_max)` of a point set.
+fn bounding_box(v: &[Complex64]) -> (f64, f64, f64, f64) {
+    v.iter().fold(
+        (f64::MAX, f64::MIN, f64::MAX, f64::MIN),
+        |(x0, x1, y0, y1), z| (x0.min(z.re), x1.max(z.re), y0.min(z.im), y1.max(z.im)),
+    )
 }
 
 /// Distance from `z` to the polyline `v` (closed when `closed`).
@@ -983,16 +979,7 @@ impl Raster {
     fn new(poly: Option<&[Complex64]>, px: f64, margin: f64) -> Self {
         let (x0, x1, y0, y1) = match poly {
             None => (-1.0, 1.0, -1.0, 1.0),
-            Some(v) => {
-                let (mut x0, mut x1, mut y0, mut y1) = (f64::MAX, f64::MIN, f64::MAX, f64::MIN);
-                for z in v {
-                    x0 = x0.min(z.re);
-                    x1 = x1.max(z.re);
-                    y0 = y0.min(z.im);
-                    y1 = y1.max(z.im);
-                }
-                (x0, x1, y0, y1)
-            }
+            Some(v) => bounding_box(v),
         };
         let nx = ((x1 - x0) / px).ceil() as usize + 2;
         let ny = ((y1 - y0) / px).ceil() as usize + 2;

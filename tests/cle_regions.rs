@@ -32,6 +32,20 @@ fn cross(a: &[Complex64], b: &[Complex64]) -> bool {
     false
 }
 
+/// No two of the loops cross.
+fn assert_no_two_cross(closed: &[&CleLoop]) {
+    for (i, a) in closed.iter().enumerate() {
+        for b in &closed[i + 1..] {
+            assert!(
+                !cross(&a.points, &b.points),
+                "loops {} and {} cross",
+                a.id,
+                b.id
+            );
+        }
+    }
+}
+
 fn check_structure(c: &LoopConfiguration, eps: f64) {
     for (i, l) in c.loops.iter().enumerate() {
         assert_eq!(l.id, i, "loop ids are positions");
@@ -89,16 +103,7 @@ fn kappa_three_loops_do_not_cross_each_other() {
     check_structure(&c, 0.3);
     let closed: Vec<&CleLoop> = c.loops.iter().filter(|l| l.closed).collect();
     assert!(!closed.is_empty(), "no closed loop at κ = 3, seed 5");
-    for (i, a) in closed.iter().enumerate() {
-        for b in &closed[i + 1..] {
-            assert!(
-                !cross(&a.points, &b.points),
-                "loops {} and {} cross",
-                a.id,
-                b.id
-            );
-        }
-    }
+    assert_no_two_cross(&closed);
 }
 
 /// For 4 < κ < 8 the loops touch each other but do not cross (Sheffield, Duke Math. J. 2009,
@@ -112,16 +117,7 @@ fn kappa_six_closed_loops_do_not_cross() {
     check_structure(&c, eps);
     assert!(!c.loops.is_empty(), "no loop at κ = 6, seed 1");
     let closed: Vec<&CleLoop> = c.loops.iter().filter(|l| l.closed).collect();
-    for (i, a) in closed.iter().enumerate() {
-        for b in &closed[i + 1..] {
-            assert!(
-                !cross(&a.points, &b.points),
-                "loops {} and {} cross",
-                a.id,
-                b.id
-            );
-        }
-    }
+    assert_no_two_cross(&closed);
 }
 
 #[test]
