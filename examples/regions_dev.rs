@@ -64,7 +64,7 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
                 {
                     near += 1;
                 }
-                if polylines_cross(&a.points, &b.points) {
+                if sleek::geometry::polylines_cross(&a.points, &b.points) {
                     crossing += 1;
                 }
             }
@@ -100,28 +100,4 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
         println!("  figure: {}", path.display());
     }
     Ok(())
-}
-
-/// Whether two closed polylines cross (a proper segment intersection), by brute force over
-/// segment pairs whose boxes overlap.
-fn polylines_cross(a: &[num_complex::Complex64], b: &[num_complex::Complex64]) -> bool {
-    let seg = |p: &[num_complex::Complex64], i: usize| (p[i], p[(i + 1) % p.len()]);
-    for i in 0..a.len() {
-        let (p, q) = seg(a, i);
-        for j in 0..b.len() {
-            let (r, s) = seg(b, j);
-            let o =
-                |a: num_complex::Complex64,
-                 b: num_complex::Complex64,
-                 c: num_complex::Complex64| { ((b - a).conj() * (c - a)).im };
-            let d1 = o(p, q, r);
-            let d2 = o(p, q, s);
-            let d3 = o(r, s, p);
-            let d4 = o(r, s, q);
-            if d1 * d2 < 0.0 && d3 * d4 < 0.0 {
-                return true;
-            }
-        }
-    }
-    false
 }

@@ -114,6 +114,23 @@ pub fn box_dimension(
     })
 }
 
+/// Whether two closed polylines (first points not repeated) cross: some segment of one and some
+/// segment of the other intersect properly (touching at an end point or overlapping on a line
+/// does not count). Brute force over segment pairs, `O(|a|·|b|)`.
+pub fn polylines_cross(a: &[Complex64], b: &[Complex64]) -> bool {
+    let o = |p: Complex64, q: Complex64, r: Complex64| ((q - p).conj() * (r - p)).im;
+    for i in 0..a.len() {
+        let (p, q) = (a[i], a[(i + 1) % a.len()]);
+        for j in 0..b.len() {
+            let (r, s) = (b[j], b[(j + 1) % b.len()]);
+            if o(p, q, r) * o(p, q, s) < 0.0 && o(r, s, p) * o(r, s, q) < 0.0 {
+                return true;
+            }
+        }
+    }
+    false
+}
+
 /// Whether the closed polyline `p` (first point not repeated) is simple: no two of its
 /// segments cross, the closing segment included. Segments that share an end point are not
 /// compared, so a polyline that comes back exactly onto one of its vertices counts as simple.
@@ -163,6 +180,36 @@ pub fn vertex_distance(a: &[Complex64], b: &[Complex64], cell: f64) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    fn square(x: f64, y: f64, side: f64) -> Vec<Complex64> {
+        vec![
+            Complex64::new(x, y),
+            Complex64::new(x + side, y),
+            Complex64::new(x + side, y + side),
+            Complex64::new(x, y + side),
+        ]
+    }
+
+    #[test]
+    fn polylines_cross_only_when_segments_cross() {
+        // Overlapping squares cross; nested, disjoint, or corner-sharing ones do not.
+        assert!(polylines_cross(
+            &square(0.0, 0.0, 1.0),
+            &square(0.5, 0.5, 1.0)
+        ));
+        assert!(!polylines_cross(
+            &square(0.0, 0.0, 1.0),
+            &square(0.25, 0.25, 0.5)
+        ));
+        assert!(!polylines_cross(
+            &square(0.0, 0.0, 1.0),
+            &square(2.0, 0.0, 1.0)
+        ));
+        assert!(!polylines_cross(
+            &square(0.0, 0.0, 1.0),
+            &square(1.0, 1.0, 1.0)
+        ));
+    }
 
     #[test]
     fn box_count_of_a_segment_grows_like_one_over_r() {

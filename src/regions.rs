@@ -849,7 +849,6 @@ impl RegionSampler {
                 parent_local,
             });
         }
-        let _ = kappa;
         if let Ok(path) = std::env::var("SLEEK_DUMP") {
             // Development aid: every region's trace, lines `region x y`
             // (`examples/trace_dump_view.rs` draws them).

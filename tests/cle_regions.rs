@@ -4,7 +4,7 @@
 //! The configurations are small (ε = 0.3, a few seconds each); what is checked holds for every
 //! configuration, so one seed per κ is a test, not a sample.
 
-use num_complex::Complex64;
+use sleek::geometry::polylines_cross;
 use sleek::loops::{CleLoop, LoopConfiguration};
 use sleek::polygon::winding_number;
 use sleek::regions::{RegionSampler, RegionSettings};
@@ -17,27 +17,12 @@ fn sample(kappa: f64, eps: f64, seed: u64) -> LoopConfiguration {
         .0
 }
 
-/// Whether two polylines (closed) have a proper crossing of two segments.
-fn cross(a: &[Complex64], b: &[Complex64]) -> bool {
-    let o = |p: Complex64, q: Complex64, r: Complex64| ((q - p).conj() * (r - p)).im;
-    for i in 0..a.len() {
-        let (p, q) = (a[i], a[(i + 1) % a.len()]);
-        for j in 0..b.len() {
-            let (r, s) = (b[j], b[(j + 1) % b.len()]);
-            if o(p, q, r) * o(p, q, s) < 0.0 && o(r, s, p) * o(r, s, q) < 0.0 {
-                return true;
-            }
-        }
-    }
-    false
-}
-
 /// No two of the loops cross.
 fn assert_no_two_cross(closed: &[&CleLoop]) {
     for (i, a) in closed.iter().enumerate() {
         for b in &closed[i + 1..] {
             assert!(
-                !cross(&a.points, &b.points),
+                !polylines_cross(&a.points, &b.points),
                 "loops {} and {} cross",
                 a.id,
                 b.id
