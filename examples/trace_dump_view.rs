@@ -1,22 +1,39 @@
 //! Development aid: draws the branch traces dumped by `SLEEK_DUMP=FILE` (lines `branch x y`)
-//! to a PNG, one colour per branch.
+//! to a PNG, one colour per branch, with marker lines `M x y` as red circles and an optional
+//! window.
 //!
 //! ```text
-//! cargo run --release --example trace_dump_view -- DUMP OUT.png
+//! cargo run --release --example trace_dump_view -- DUMP OUT.png [X0 X1 Y0 Y1]
 //! ```
 
 use plotters::prelude::*;
 
 fn main() -> Result<(), Box<dyn std::error::Error>> {
     let args: Vec<String> = std::env::args().skip(1).collect();
-    if args.len() != 2 {
-        return Err("usage: trace_dump_view DUMP OUT.png".into());
+    if args.len() != 2 && args.len() != 6 {
+        return Err("usage: trace_dump_view DUMP OUT.png [X0 X1 Y0 Y1]".into());
     }
+    let (x0, x1, y0, y1) = if args.len() == 6 {
+        (
+            args[2].parse::<f64>()?,
+            args[3].parse::<f64>()?,
+            args[4].parse::<f64>()?,
+            args[5].parse::<f64>()?,
+        )
+    } else {
+        (-1.02, 1.02, -1.02, 1.02)
+    };
+    // Marker lines `M x y` (open loop ends, say) are drawn as circles.
+    let mut marks: Vec<(f64, f64)> = Vec::new();
     let text = std::fs::read_to_string(&args[0])?;
     let mut branches: Vec<(u64, Vec<(f64, f64)>)> = Vec::new();
     for line in text.lines() {
         let v: Vec<&str> = line.split_whitespace().collect();
         if v.len() != 3 {
+            continue;
+        }
+        if v[0] == "M" {
+            marks.push((v[1].parse::<f64>()?, v[2].parse::<f64>()?));
             continue;
         }
         let id: u64 = v[0].parse()?;
@@ -31,8 +48,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     {
         let root = BitMapBackend::with_buffer(&mut rgb, (w, h)).into_drawing_area();
         root.fill(&WHITE)?;
-        let mut chart =
-            ChartBuilder::on(&root).build_cartesian_2d(-1.02f64..1.02, -1.02f64..1.02)?;
+        let mut chart = ChartBuilder::on(&root).build_cartesian_2d(x0..x1, y0..y1)?;
         chart.draw_series(std::iter::once(PathElement::new(
             (0..=400)
                 .map(|k| {
@@ -49,6 +65,11 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
                     .map(|w| PathElement::new(vec![w[0], w[1]], c.stroke_width(1))),
             )?;
         }
+        chart.draw_series(
+            marks
+                .iter()
+                .map(|&p| Circle::new(p, 6, RED.stroke_width(2))),
+        )?;
         root.present()?;
     }
     image::RgbImage::from_raw(w, h, rgb)

@@ -17,6 +17,25 @@
 //!   Each closed loop of diameter ≥ ε becomes a new region: its polyline is uniformised afresh
 //!   by the geodesic zipper ([`crate::geozip`]), and explored the same way, one depth deeper.
 //!
+//! * **Following the loop (4 ≤ κ < 8).** For these κ a visit of 0 need not close the loop
+//!   being traced: it happens whenever the tip touches the boundary, or the outer side of its
+//!   own trace, so that the loop's start is cut off from the target. Of the two parts, the one
+//!   holding the loop's start is bounded partly by the swallowed side of the loop's trace and
+//!   partly by the rest of the boundary; the loop goes on there, to its start (as chordal
+//!   SLE_κ from the tip to the start, by the usual change of target of SLE_κ(κ−6)), and only
+//!   the other part holds a fresh CLE. (For critical percolation, κ = 6: a cluster's boundary
+//!   that touches the explored region continues behind the touching point.) So when θ comes
+//!   within `retarget_gap` of 0 with the tip more than two spacings from the loop's start, the
+//!   target moves into the part where the loop goes on: to the frame point at distance θ/2
+//!   from the middle of the arc (0, θ), from which that arc and the rest of the boundary have
+//!   about equal harmonic measure. Near 2π the same is done with the arc (θ, 2π), the outside
+//!   of the lobe being closed, which holds the loop's start. A loop is so traced back to its
+//!   start and closes with θ at 0, seen from outside. For κ ≤ 4 an excursion ends at its start
+//!   in the continuum, and a visit of 0 away from it is an error of the discrete chain;
+//!   following repairs it at κ = 4 (ε = 0.2, seeds 1–2: 0 of 9 and 0 of 9 loops open, against
+//!   3 of 10 and 4 of 6 without) but not at κ = 3 (seed 1: 3 loops found against 6, seed 2: 9
+//!   against 8), so it is on for κ ≥ 4 only.
+//!
 //! So no frame ever has to follow a point into a region cut off from its target, which is
 //! what defeated the branching exploration of [`crate::loops`]: every region is a Jordan
 //! polygon uniformised from the plane, and every chain explores only its own region.
@@ -33,22 +52,32 @@
 //!   them are missing.
 //! * A loop that closes around the target anyway (no grid point with room outside it that the
 //!   frame resolves) leaves the outside to the pass over what remains (below); such points are
-//!   counted (`lost_points`).
+//!   counted (`lost_points`). When that loop is smaller than ε (the target sat behind a neck at
+//!   the tip narrower than the steps), or when the steps sit at their floor of 10⁻¹⁴ twenty
+//!   times in a row (the frame no longer resolves the tip), the region's exploration ends there
+//!   (`tiny_full`, `stalled`) and the excursion in progress is dropped.
+//! * A part where a loop goes on that is narrower than half a spacing at the frame point above
+//!   is not followed; such a loop closes through the fjord's mouth or is flagged open.
 //! * For κ ≤ 4 the net push of the hidden excursions on the force point is neglected, as in
 //!   [`crate::cle`] (DESIGN §6.1): the law of the trunk between loops has an error that
 //!   vanishes with the step only like h^{δ/4}, δ = 3 − 8/κ.
 //! * For 4 < κ < 8 the loops touch themselves; a loop's polygon is its whole trace, and its
 //!   interior components are cut apart by the raster pass.
 //!
-//! # Status: many loops do not close (issue 5 open)
-//! The traces of the regions are clean explorations that cover the disk, but at a visit of 0
-//! the chain's tip is often at the mouth of a sub-resolution fjord, 2–50 spacings from its
-//! excursion's start (step log: `SLEEK_DEBUG=1`). Loops are closed through the mouth when the
-//! excursion's first stretch passes within [`CLOSE_GAP`] spacings of the tip
-//! (`loop_polyline`); the others are flagged open (kept in the data, not drawn): at ε = 0.2,
-//! seeds 1–3, 3 of 9, 3 of 5 and 3 of 8 at κ = 6; 1 of 6, 0 of 8 and 3 of 5 at κ = 3. The
-//! force point is then reset to the tip (the frame rotated to put the tip at 0), so that later
-//! excursions start where the trace is.
+//! # Status (issue 5 open)
+//! Measured at ε = 0.2 (`examples/regions_dev.rs`): at κ = 6, seeds 1–3, 9, 7 and 10 loops, all
+//! closed, with nested loops (seed 2) and loops touching the circle; at κ = 16/3, seeds 1–2, 9
+//! and 8 loops, all closed. For κ ≤ 4 some excursions still end away from their start (κ = 4,
+//! seed 1: 2 of 6 open; κ = 3, seeds 1–2: 0 of 4 and 0 of 8), and the κ = 3 traces are rougher
+//! than SLE_3 should look (narrow fingers at the spacing): the κ ≤ 4 pictures are not right yet.
+//! Loops that end away from their start are closed through the fjord's mouth when the
+//! excursion's first stretch passes within [`CLOSE_GAP`] spacings of the tip (`loop_polyline`);
+//! the others are flagged open (kept in the data, not drawn). The force point is then reset to
+//! the tip (the frame rotated to put the tip at 0), so that later excursions start where the
+//! trace is. Development aids: `SLEEK_DEBUG=1` prints the last steps before an excursion ends
+//! away from its start or around its target; `SLEEK_DUMP=FILE` and `SLEEK_DUMP_OUTLINES=FILE`
+//! write every region's trace and its free components (`examples/trace_dump_view.rs` draws
+//! them).
 
 use crate::cle::{AngleProcess, EndVisit};
 use crate::disk_fast::{DiskChain, DiskMap};
@@ -74,6 +103,15 @@ const UNREACHED: f64 = 1e-6;
 /// that the boundary arc within this reach maps near the tip (a move beyond it, or a visit of
 /// an end from farther away, has probability about e^{−6}).
 const PROBE_REACH: f64 = 3.5;
+
+/// A region whose steps sit at the floor (10⁻¹⁴) this many times in a row has a frame that no
+/// longer resolves the tip; its exploration ends (`stalled`).
+const STALL_STEPS: u32 = 1000;
+
+/// A step whose tip moves more than this many spacings in the plane ends the region's
+/// exploration (`stalled`; the step control keeps steps under 3 spacings where the frame
+/// resolves the tip).
+const JUMP_SPACINGS: f64 = 6.0;
 
 /// A loop is closed when its last point is within this many spacings of its first.
 pub const CLOSE_GAP: f64 = 3.0;
@@ -183,6 +221,13 @@ pub struct RegionDiagnostics {
     pub failed_interiors: u64,
     /// Largest number of maps in one region's chain.
     pub longest_chain: u64,
+    /// Changes of target that follow the loop being traced (module docs).
+    pub follows: u64,
+    /// Regions whose exploration ended because the frame no longer resolved the tip (steps at
+    /// their floor, or a step longer than six spacings).
+    pub stalled: u64,
+    /// Visits of 2π that closed a loop smaller than ε around the target (module docs).
+    pub tiny_full: u64,
 }
 
 /// A region waiting to be explored.
@@ -608,7 +653,9 @@ impl RegionSampler {
                 });
             }
         }
-        let mut target = first;
+        // The target: a grid point, or `None` while a loop is being followed.
+        let mut target: Option<usize> = Some(first);
+        let mut target_pt = grid.pts[first];
         let mut depth = task.depth;
         let mut inner_parent: Option<usize> = None;
         let mut theta = 0.0f64;
@@ -618,6 +665,7 @@ impl RegionSampler {
         grid.touch(start);
         let mut exc_start = 0usize;
         let mut no_outside = false;
+        let mut floor_steps = 0u32;
         let dbg = std::env::var("SLEEK_DEBUG").is_ok();
         let mut hist: Vec<(f64, f64, f64, f64)> = Vec::new();
         // Plane length per unit of frame length at the tip (estimated from the last step).
@@ -628,12 +676,64 @@ impl RegionSampler {
                 diag.truncated = true;
                 break;
             }
-            // Change of target: when its neighbourhood is explored, it is gone, or a loop is
-            // about to close around it.
-            let closing = TWO_PI - theta.abs() < s.retarget_gap && !no_outside;
-            let stale = !grid.open(target, s.stop_room);
-            if closing || stale {
-                let tip = *trace.last().unwrap_or(&start);
+            // Following the loop being traced (module docs): when θ comes within
+            // `retarget_gap` of an end with the tip away from the loop's start, the next visit
+            // would cut off the part of the domain where the loop goes on (the arc between the
+            // force point and the tip on the side the visit swallows); the target moves into
+            // that part, to the frame point seen from which that arc and the rest of the
+            // boundary have about equal harmonic measure. Near 2π the swallowed side is the
+            // outside of the lobe being closed, which also holds the loop's start, so the target
+            // moves there whether or not the tip is back at the start: the loop then closes with
+            // θ at 0, seen from outside.
+            let a = theta.abs();
+            let in_loop = trace.len() - 1 > exc_start;
+            let tip = *trace.last().unwrap_or(&start);
+            let near_start = (tip - trace[exc_start]).norm() <= 2.0 * s.spacing;
+            let near_full = TWO_PI - a < s.retarget_gap;
+            let near_zero = in_loop && a < s.retarget_gap && !near_start;
+            let mut followed = false;
+            if kappa >= 4.0 && (near_full || near_zero) {
+                let sg = if theta < 0.0 { -1.0 } else { 1.0 };
+                let (lo, width) = if near_full { (a, TWO_PI - a) } else { (0.0, a) };
+                let w = Complex64::from_polar(1.0 - 0.5 * width, sg * (lo + 0.5 * width));
+                let z = map.to_plane(chain.apply_prefix(chain.len(), w));
+                // (Only where the frame resolves it: a part narrower than half a spacing at
+                // the target, or an arc under 10⁻⁶, is left to the closing rule.)
+                if z.re.is_finite()
+                    && z.im.is_finite()
+                    && width > 1e-6
+                    && (z - tip).norm() > 0.5 * s.spacing
+                {
+                    let rot = (1.0 - w.conj()) / (1.0 - w);
+                    let m = DiskMap::Mobius {
+                        c: w,
+                        rot: rot / rot.norm(),
+                    };
+                    let tip_w = Complex64::from_polar(1.0, theta);
+                    let stretch = (1.0 - w.norm_sqr()) / (1.0 - w.conj() * tip_w).norm_sqr();
+                    theta = carried_angle(theta, forward(&m, tip_w));
+                    chain.push(m);
+                    scale /= stretch;
+                    target = None;
+                    target_pt = z;
+                    rd.retargets += 1;
+                    rd.follows += 1;
+                    followed = true;
+                    if dbg {
+                        hist.push((theta, -1.0, width, (z - tip).norm() / s.spacing));
+                    }
+                }
+            }
+            // A new target from the grid when the current one's neighbourhood is explored, or
+            // after a loop that was being followed has closed.
+            let stale = match target {
+                Some(k) => !grid.open(k, s.stop_room),
+                None => !in_loop,
+            };
+            // A loop about to close around the target with no room between the tip and the
+            // loop's start: the target moves to a grid point outside the loop.
+            let closing = near_full && !followed && !no_outside;
+            if stale || closing {
                 let exc: Vec<Complex64> = if closing {
                     trace[exc_start..].to_vec()
                 } else {
@@ -648,10 +748,10 @@ impl RegionSampler {
                         break;
                     }
                     for &k in &cands {
-                        if k == target && !closing {
+                        if Some(k) == target {
                             continue;
                         }
-                        if closing && (k == target || winding_number(&exc, grid.pts[k]) != 0) {
+                        if closing && winding_number(&exc, grid.pts[k]) != 0 {
                             continue;
                         }
                         tried += 1;
@@ -673,21 +773,20 @@ impl RegionSampler {
                         };
                         let tip_w = Complex64::from_polar(1.0, theta);
                         let stretch = (1.0 - w.norm_sqr()) / (1.0 - w.conj() * tip_w).norm_sqr();
-                        let b = forward(&m, tip_w).arg();
-                        let new_theta = if theta >= 0.0 {
-                            b.rem_euclid(TWO_PI)
-                        } else {
-                            -(-b).rem_euclid(TWO_PI)
-                        };
-                        if closing && TWO_PI - new_theta.abs() < s.retarget_gap {
-                            // The excursion surrounds this point too (it sees most of the
-                            // boundary as the excursion's inner side).
+                        let new_theta = carried_angle(theta, forward(&m, tip_w));
+                        if TWO_PI - new_theta.abs() < s.retarget_gap {
+                            // The excursion surrounds this point (nearly all the boundary it
+                            // sees is the excursion's inner side): not a target to go to.
                             continue;
+                        }
+                        if dbg {
+                            hist.push((new_theta, -2.0, theta, w.norm()));
                         }
                         theta = new_theta;
                         chain.push(m);
                         scale /= stretch;
-                        target = k;
+                        target = Some(k);
+                        target_pt = grid.pts[k];
                         rd.retargets += 1;
                         moved = true;
                         break 'search;
@@ -698,11 +797,11 @@ impl RegionSampler {
                     want *= 4;
                 }
                 if !moved && closing {
-                    // Nothing with room outside the excursion: let the loop close around the
-                    // target (searching again at every step would find nothing new).
+                    // Nothing with room outside the loop: let it close around the target
+                    // (searching again at every step would find nothing new).
                     no_outside = true;
                 }
-                if !moved && !closing {
+                if !moved && stale {
                     break; // the region is explored
                 }
             }
@@ -727,25 +826,44 @@ impl RegionSampler {
                 }
                 h *= 0.25;
             }
+            if h <= 1e-14 {
+                floor_steps += 1;
+                if floor_steps > STALL_STEPS {
+                    // The frame no longer resolves the tip's neighbourhood (boundary points
+                    // within 10⁻⁷ of the tip map spacings away): the region's exploration
+                    // ends here, the excursion in progress is dropped, and what remains is
+                    // left to the pass over what remains.
+                    rd.stalled += 1;
+                    break;
+                }
+            } else {
+                floor_steps = 0;
+            }
             let h = h.max(1e-14);
             let st = self.process.step(theta, h, g);
             if dbg {
-                let n = chain.len();
-                let f = map.to_plane(chain.apply_prefix(n, Complex64::new(1.0, 0.0)));
                 let tip = *trace.last().unwrap_or(&start);
                 hist.push((
                     theta,
                     h,
                     (tip - trace[exc_start]).norm() / s.spacing,
-                    (tip - f).norm() / s.spacing,
+                    (tip - target_pt).norm() / s.spacing
+                        + if target.is_none() { 1000.0 } else { 0.0 },
                 ));
                 if st.visit != EndVisit::None {
                     let gap = (tip - trace[exc_start]).norm() / s.spacing;
-                    if gap > 3.0 && trace.len() - exc_start > 50 {
-                        eprintln!("open excursion, {} steps:", trace.len() - exc_start);
-                        for (th, hh, d0, df) in hist.iter().rev().take(12).rev() {
+                    if gap > 3.0 && trace.len() - exc_start > 50 || st.visit == EndVisit::Full {
+                        // The last steps (h = −1 marks a change of target that follows the
+                        // loop, −2 one to a grid point; distances in spacings, +1000 while
+                        // following).
+                        eprintln!(
+                            "{:?} visit {gap:.1} spacings from the excursion's start, {} steps:",
+                            st.visit,
+                            trace.len() - exc_start
+                        );
+                        for (th, hh, d0, dt) in hist.iter().rev().take(40).rev() {
                             eprintln!(
-                                "  theta {th:.3e} h {hh:.2e} tip-start {d0:.1} tip-force {df:.1}"
+                                "  theta {th:.3e} h {hh:.2e} tip-start {d0:.1} tip-target {dt:.1}"
                             );
                         }
                     }
@@ -766,6 +884,16 @@ impl RegionSampler {
                 diag.steps += 1;
                 h_prev = h;
                 theta = st.theta;
+                let n = trace.len();
+                if (trace[n - 1] - trace[n - 2]).norm() > JUMP_SPACINGS * s.spacing {
+                    // The step control keeps steps under 3 spacings in a frame that resolves
+                    // the tip; a jump this long means the frame has lost its precision. The
+                    // region's exploration ends, the excursion in progress is dropped (with
+                    // the jump), and what remains is left to the pass over what remains.
+                    trace.pop();
+                    rd.stalled += 1;
+                    break;
+                }
                 continue;
             }
             // A visit of an end: the tip went back to the force point (from its own side at 0,
@@ -806,10 +934,11 @@ impl RegionSampler {
             // is outside is lost (module docs).
             rd.closed_around_target += 1;
             let poly = loop_polyline(&trace, exc_start, end, s.spacing);
-            // The unexplored outside is left to the pass over what remains (a fresh CLE there,
-            // by target invariance: an exploration towards a point outside would restart there).
-            rd.lost_points += grid.remove(&poly, false, s.stop_room);
             if diameter(&poly) >= s.min_size {
+                // The unexplored outside is left to the pass over what remains (a fresh CLE
+                // there, by target invariance: an exploration towards a point outside would
+                // restart there).
+                rd.lost_points += grid.remove(&poly, false, s.stop_room);
                 out.loops.push(FoundLoop {
                     points: poly,
                     depth: depth + 1,
@@ -818,7 +947,12 @@ impl RegionSampler {
                 inner_parent = Some(out.loops.len() - 1);
                 depth += 1;
             } else {
-                break; // the rest of the region is inside a loop smaller than ε
+                // A loop smaller than ε around a target with room: the target sat behind a
+                // neck at the tip narrower than the steps (the trace is a few points while θ
+                // went round). The region's exploration ends; what remains is left to the
+                // pass over what remains.
+                rd.tiny_full += 1;
+                break;
             }
             exc_start = end;
             no_outside = false;
@@ -848,6 +982,20 @@ impl RegionSampler {
                 depth,
                 parent_local,
             });
+        }
+        if let Ok(path) = std::env::var("SLEEK_DUMP_OUTLINES") {
+            use std::io::Write;
+            if let Ok(mut f) = std::fs::OpenOptions::new()
+                .create(true)
+                .append(true)
+                .open(path)
+            {
+                for (k, c) in out.children.iter().enumerate() {
+                    for z in c.outline.iter().chain(c.outline.first()) {
+                        let _ = writeln!(f, "{} {} {}", 1000 * rd.regions + k as u64, z.re, z.im);
+                    }
+                }
+            }
         }
         if let Ok(path) = std::env::var("SLEEK_DUMP") {
             // Development aid: every region's trace, lines `region x y`
@@ -918,6 +1066,25 @@ impl RegionSampler {
             parent_local,
         });
     }
+}
+
+/// θ carried through a disk automorphism that fixes the force point at 1: the angle of the
+/// tip's image `w`, on the same side as `theta` (in `[0, 2π)` for θ ≥ 0, `(−2π, 0]` otherwise).
+///
+/// An automorphism keeps the order of points on the circle, so a tip next to the force point
+/// stays next to it on the same side: an image that rounding puts just across the force point
+/// (within 10⁻⁹ of the far end from a θ within π of the near one, or the reverse) is folded
+/// back.
+fn carried_angle(theta: f64, w: Complex64) -> f64 {
+    let b = w.arg();
+    let sign = if theta >= 0.0 { 1.0 } else { -1.0 };
+    let mut a = (sign * b).rem_euclid(TWO_PI);
+    let near_end = theta.abs() < PI && a > TWO_PI - 1e-9;
+    let far_end = theta.abs() > PI && a < 1e-9;
+    if near_end || far_end {
+        a = TWO_PI - a;
+    }
+    sign * a
 }
 
 /// The loop closed at step `end` of an excursion that started at step `start` of `trace`.

@@ -92,9 +92,9 @@ fn kappa_three_loops_do_not_cross_each_other() {
 }
 
 /// For 4 < κ < 8 the loops touch each other but do not cross (Sheffield, Duke Math. J. 2009,
-/// the exploration tree; quoted from memory). Most loops of this version do not close (module
-/// docs of `sleek::regions`), so only "no crossing" among the closed ones is checked; whether
-/// they touch cannot be checked until they close.
+/// the exploration tree; quoted from memory): no two closed loops cross. (Touching is not
+/// tested: the discrete traces of every κ come within half a spacing of themselves in narrow
+/// fjords, so a touching count at the spacing does not tell κ = 6 from κ = 3.)
 #[test]
 fn kappa_six_closed_loops_do_not_cross() {
     let eps = 0.3;
