@@ -65,11 +65,11 @@
 //!   interior components are cut apart by the raster pass.
 //!
 //! # Status (issue 5 open)
-//! Measured at ε = 0.2 (`examples/regions_dev.rs`): at κ = 6, seeds 1–3, 9, 7 and 10 loops, all
-//! closed, with nested loops (seed 2) and loops touching the circle; at κ = 16/3, seeds 1–2, 9
-//! and 8 loops, all closed. For κ ≤ 4 some excursions still end away from their start (κ = 4,
-//! seed 1: 2 of 6 open; κ = 3, seeds 1–2: 0 of 4 and 0 of 8), and the κ = 3 traces are rougher
-//! than SLE_3 should look (narrow fingers at the spacing): the κ ≤ 4 pictures are not right yet.
+//! Measured at ε = 0.2, seeds 1–3 (`examples/regions_dev.rs`): κ = 6, 8, 7 and 8 loops, of
+//! which 1, 1 and 0 open, with depth-2 loops in seeds 2 and 3; κ = 16/3, 7, 7 and 11 loops, all
+//! closed; κ = 4, 9, 9 and 18, all closed; κ = 3 (no following), 6, 8 and 5, of which 1, 0
+//! and 3 open, and the κ = 3 traces are rougher than SLE_3 should look (narrow fingers at the
+//! spacing). Some loops ≥ ε are missing where a region ended early (`stalled`, `tiny_full`).
 //! Loops that end away from their start are closed through the fjord's mouth when the
 //! excursion's first stretch passes within [`CLOSE_GAP`] spacings of the tip (`loop_polyline`);
 //! the others are flagged open (kept in the data, not drawn). The force point is then reset to

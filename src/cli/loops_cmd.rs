@@ -156,6 +156,13 @@ pub fn run_printing(g: &Global, a: &LoopsArgs, print: bool) -> Result<usize, Fai
             sleek::regions::CLOSE_GAP
         ))?;
     }
+    let early = rd.stalled + rd.tiny_full;
+    if early > 0 {
+        emit(format_args!(
+            "  {early} region(s) ended early (the discrete chain stopped resolving the tip): \
+             loops there can be missing"
+        ))?;
+    }
     if conf.diagnostics.truncated {
         emit(format_args!(
             "  warning: the step budget ran out; the configuration is incomplete"
