@@ -646,11 +646,7 @@ impl RegionSampler {
         {
             let c = map.to_disk(grid.pts[first]);
             if c.norm() > 0.0 {
-                let rot = (1.0 - c.conj()) / (1.0 - c);
-                chain.push(DiskMap::Mobius {
-                    c,
-                    rot: rot / rot.norm(),
-                });
+                chain.push(recentre(c, 0.0).0);
             }
         }
         // The target: a grid point, or `None` while a loop is being followed.
@@ -704,14 +700,8 @@ impl RegionSampler {
                     && width > 1e-6
                     && (z - tip).norm() > 0.5 * s.spacing
                 {
-                    let rot = (1.0 - w.conj()) / (1.0 - w);
-                    let m = DiskMap::Mobius {
-                        c: w,
-                        rot: rot / rot.norm(),
-                    };
-                    let tip_w = Complex64::from_polar(1.0, theta);
-                    let stretch = (1.0 - w.norm_sqr()) / (1.0 - w.conj() * tip_w).norm_sqr();
-                    theta = carried_angle(theta, forward(&m, tip_w));
+                    let (m, new_theta, stretch) = recentre(w, theta);
+                    theta = new_theta;
                     chain.push(m);
                     scale /= stretch;
                     target = None;
@@ -766,14 +756,7 @@ impl RegionSampler {
                             rd.unreached_points += 1;
                             continue;
                         }
-                        let rot = (1.0 - w.conj()) / (1.0 - w);
-                        let m = DiskMap::Mobius {
-                            c: w,
-                            rot: rot / rot.norm(),
-                        };
-                        let tip_w = Complex64::from_polar(1.0, theta);
-                        let stretch = (1.0 - w.norm_sqr()) / (1.0 - w.conj() * tip_w).norm_sqr();
-                        let new_theta = carried_angle(theta, forward(&m, tip_w));
+                        let (m, new_theta, stretch) = recentre(w, theta);
                         if TWO_PI - new_theta.abs() < s.retarget_gap {
                             // The excursion surrounds this point (nearly all the boundary it
                             // sees is the excursion's inner side): not a target to go to.
@@ -1066,6 +1049,21 @@ impl RegionSampler {
             parent_local,
         });
     }
+}
+
+/// The change of target to the frame point `w`: the disk automorphism sending `w` to 0 and
+/// fixing the force point at 1, the tip's angle θ carried through it, and the factor by which
+/// it stretches frame lengths at the tip.
+fn recentre(w: Complex64, theta: f64) -> (DiskMap, f64, f64) {
+    let rot = (1.0 - w.conj()) / (1.0 - w);
+    let m = DiskMap::Mobius {
+        c: w,
+        rot: rot / rot.norm(),
+    };
+    let tip_w = Complex64::from_polar(1.0, theta);
+    let stretch = (1.0 - w.norm_sqr()) / (1.0 - w.conj() * tip_w).norm_sqr();
+    let new_theta = carried_angle(theta, forward(&m, tip_w));
+    (m, new_theta, stretch)
 }
 
 /// θ carried through a disk automorphism that fixes the force point at 1: the angle of the
