@@ -596,4 +596,29 @@ fn loops_exports_have_the_documented_layout() {
     assert_eq!(lines.count(), vertices);
     let svg_text = std::fs::read_to_string(&svg).unwrap();
     assert!(svg_text.contains("<svg"));
+    // With --json the summary on stdout is one JSON document that agrees with the file.
+    let json2 = dir.path().join("d.json");
+    let (code, out, err) = run(&[
+        "loops",
+        "--kappa",
+        "6",
+        "--min-size",
+        "0.4",
+        "--seed",
+        "2",
+        "--at",
+        "0,0",
+        "--json",
+        "--export-json",
+        json2.to_str().unwrap(),
+        "--quiet",
+    ]);
+    assert_eq!(code, 0, "{err}");
+    let summary: serde_json::Value =
+        serde_json::from_str(&out).expect("stdout is one JSON document");
+    assert_eq!(summary["loops"].as_u64().unwrap() as usize, loops.len());
+    let closed = loops.iter().filter(|l| l["closed"] == true).count();
+    assert_eq!(summary["closed"].as_u64().unwrap() as usize, closed);
+    assert_eq!(summary["marked"][0]["point"], serde_json::json!([0.0, 0.0]));
+    assert!(summary["diagnostics"]["regions"].as_u64().unwrap() >= 1);
 }

@@ -70,8 +70,9 @@ pub fn run(g: &Global, a: &LoopsArgs) -> Result<(), Failure> {
 /// Sample, write the files, and print the summary when `print`; returns the number of loops
 /// drawn (closed).
 pub fn run_printing(g: &Global, a: &LoopsArgs, print: bool) -> Result<usize, Failure> {
+    // With --json the table gives way to one JSON summary on stdout, printed at the end.
     let emit = |args: std::fmt::Arguments| -> Result<(), Failure> {
-        if print {
+        if print && !g.json {
             emit(args)
         } else {
             Ok(())
@@ -288,7 +289,75 @@ pub fn run_printing(g: &Global, a: &LoopsArgs, print: bool) -> Result<usize, Fai
         fig.draw(p)?;
         note(g, &format!("wrote {}", p.display()));
     }
-    Ok(conf.loops.iter().filter(|l| l.closed).count())
+    let drawn = conf.loops.iter().filter(|l| l.closed).count();
+    if print && g.json {
+        let summary = Summary {
+            kappa: a.kappa,
+            seed,
+            min_size: a.min_size,
+            loops: conf.loops.len(),
+            closed: drawn,
+            by_depth,
+            spacing: settings.spacing,
+            largest_gap,
+            note: NOTE,
+            marked: marked
+                .iter()
+                .map(|z| {
+                    let mut around: Vec<&CleLoop> = conf
+                        .loops
+                        .iter()
+                        .filter(|l| winding_number(&l.points, *z) != 0)
+                        .collect();
+                    around.sort_by_key(|l| l.depth);
+                    MarkedOut {
+                        point: [z.re, z.im],
+                        loops: around.iter().map(|l| l.id).collect(),
+                    }
+                })
+                .collect(),
+            diagnostics: &rd,
+            steps: conf.diagnostics.steps,
+            truncated: conf.diagnostics.truncated,
+            seconds,
+        };
+        emit_json(to_json(&summary, "the summary")?)?;
+    }
+    Ok(drawn)
+}
+
+/// Print a JSON document on stdout.
+fn emit_json(text: String) -> Result<(), Failure> {
+    emit(format_args!("{text}"))
+}
+
+/// The `--json` summary on stdout (the loops themselves go to the JSON file).
+#[derive(Serialize)]
+struct Summary<'a> {
+    kappa: f64,
+    seed: u64,
+    min_size: f64,
+    /// Loops of diameter ≥ ε found, and how many of them closed (drawn).
+    loops: usize,
+    closed: usize,
+    /// Loops per nesting depth.
+    by_depth: std::collections::BTreeMap<u32, usize>,
+    spacing: f64,
+    largest_gap: f64,
+    note: &'static str,
+    /// Each marked point with the ids of the loops around it, outermost first.
+    marked: Vec<MarkedOut>,
+    diagnostics: &'a RegionDiagnostics,
+    steps: u64,
+    truncated: bool,
+    seconds: f64,
+}
+
+/// A marked point in the `--json` summary.
+#[derive(Serialize)]
+struct MarkedOut {
+    point: [f64; 2],
+    loops: Vec<usize>,
 }
 
 /// κ as the user would write it: 16/3 and 8/3 as fractions, others in decimals.
