@@ -175,13 +175,20 @@ pub fn run_printing(g: &Global, a: &LoopsArgs, print: bool) -> Result<usize, Fai
             rd.failed_interiors
         ))?;
     }
-    for (i, z) in marked.iter().enumerate() {
-        let mut around: Vec<&CleLoop> = conf
-            .loops
-            .iter()
-            .filter(|l| winding_number(&l.points, *z) != 0)
-            .collect();
-        around.sort_by_key(|l| l.depth);
+    // The loops around each marked point, outermost first.
+    let around_marked: Vec<Vec<&CleLoop>> = marked
+        .iter()
+        .map(|z| {
+            let mut around: Vec<&CleLoop> = conf
+                .loops
+                .iter()
+                .filter(|l| winding_number(&l.points, *z) != 0)
+                .collect();
+            around.sort_by_key(|l| l.depth);
+            around
+        })
+        .collect();
+    for (i, (z, around)) in marked.iter().zip(&around_marked).enumerate() {
         let list: Vec<String> = around
             .iter()
             .map(|l| match l.log_cr {
@@ -303,17 +310,10 @@ pub fn run_printing(g: &Global, a: &LoopsArgs, print: bool) -> Result<usize, Fai
             note: NOTE,
             marked: marked
                 .iter()
-                .map(|z| {
-                    let mut around: Vec<&CleLoop> = conf
-                        .loops
-                        .iter()
-                        .filter(|l| winding_number(&l.points, *z) != 0)
-                        .collect();
-                    around.sort_by_key(|l| l.depth);
-                    MarkedOut {
-                        point: [z.re, z.im],
-                        loops: around.iter().map(|l| l.id).collect(),
-                    }
+                .zip(&around_marked)
+                .map(|(z, around)| MarkedOut {
+                    point: [z.re, z.im],
+                    loops: around.iter().map(|l| l.id).collect(),
                 })
                 .collect(),
             diagnostics: &rd,
