@@ -1,6 +1,5 @@
 //! Development aid: draws the branch traces dumped by `SLEEK_DUMP=FILE` (lines `branch x y`)
-//! to a PNG, one colour per branch, with marker lines `M x y` as red circles and an optional
-//! window.
+//! to a PNG, one colour per branch, in an optional window.
 //!
 //! ```text
 //! cargo run --release --example trace_dump_view -- DUMP OUT.png [X0 X1 Y0 Y1]
@@ -23,8 +22,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     } else {
         (-1.02, 1.02, -1.02, 1.02)
     };
-    // Marker lines `M x y` (open loop ends, say) are drawn as circles.
-    let mut marks: Vec<(f64, f64)> = Vec::new();
+
     let text = std::fs::read_to_string(&args[0])?;
     let mut branches: Vec<(u64, Vec<(f64, f64)>)> = Vec::new();
     for line in text.lines() {
@@ -32,10 +30,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         if v.len() != 3 {
             continue;
         }
-        if v[0] == "M" {
-            marks.push((v[1].parse::<f64>()?, v[2].parse::<f64>()?));
-            continue;
-        }
+
         let id: u64 = v[0].parse()?;
         let p = (v[1].parse::<f64>()?, v[2].parse::<f64>()?);
         match branches.last_mut() {
@@ -65,11 +60,6 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
                     .map(|w| PathElement::new(vec![w[0], w[1]], c.stroke_width(1))),
             )?;
         }
-        chart.draw_series(
-            marks
-                .iter()
-                .map(|&p| Circle::new(p, 6, RED.stroke_width(2))),
-        )?;
         root.present()?;
     }
     image::RgbImage::from_raw(w, h, rgb)

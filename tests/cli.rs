@@ -553,7 +553,8 @@ fn loops_exports_have_the_documented_layout() {
     let json = dir.path().join("c.json");
     let csv = dir.path().join("c.csv");
     let svg = dir.path().join("c.svg");
-    let (code, out, err) = run(&[
+    // One configuration, sampled twice: once with the table, once with --json.
+    let common = [
         "loops",
         "--kappa",
         "6",
@@ -563,14 +564,20 @@ fn loops_exports_have_the_documented_layout() {
         "2",
         "--at",
         "0,0",
-        "--export-json",
-        json.to_str().unwrap(),
-        "--export-csv",
-        csv.to_str().unwrap(),
-        "--plot",
-        svg.to_str().unwrap(),
         "--quiet",
-    ]);
+    ];
+    let (code, out, err) = run(&[
+        &common[..],
+        &[
+            "--export-json",
+            json.to_str().unwrap(),
+            "--export-csv",
+            csv.to_str().unwrap(),
+            "--plot",
+            svg.to_str().unwrap(),
+        ],
+    ]
+    .concat());
     assert_eq!(code, 0, "{err}");
     assert!(out.contains("loops of diameter ≥ ε"), "{out}");
     assert!(out.contains("resolution: spacing"), "{out}");
@@ -599,20 +606,10 @@ fn loops_exports_have_the_documented_layout() {
     // With --json the summary on stdout is one JSON document that agrees with the file.
     let json2 = dir.path().join("d.json");
     let (code, out, err) = run(&[
-        "loops",
-        "--kappa",
-        "6",
-        "--min-size",
-        "0.4",
-        "--seed",
-        "2",
-        "--at",
-        "0,0",
-        "--json",
-        "--export-json",
-        json2.to_str().unwrap(),
-        "--quiet",
-    ]);
+        &common[..],
+        &["--json", "--export-json", json2.to_str().unwrap()],
+    ]
+    .concat());
     assert_eq!(code, 0, "{err}");
     let summary: serde_json::Value =
         serde_json::from_str(&out).expect("stdout is one JSON document");
