@@ -28,6 +28,10 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
     if let Ok(d) = std::env::var("SPACING_DIV") {
         settings.spacing = eps / d.parse::<f64>()?;
     }
+    if let Ok(d) = std::env::var("H_MAX") {
+        // (Development: the largest step in radial time.)
+        settings.h_max = d.parse::<f64>()?;
+    }
     let sampler = RegionSampler::new(kappa, settings)?;
     for s in &args[2..] {
         let seed: u64 = s.parse()?;

@@ -169,7 +169,11 @@ impl RegionSettings {
             return Err(Error::param(
                 "spacing",
                 self.spacing,
-                "min-size/50 <= spacing <= min-size/2",
+                format!(
+                    "{} <= spacing <= {} (min-size/50 to min-size/2)",
+                    e / 50.0,
+                    e / 2.0
+                ),
             ));
         }
         if !(self.grid.is_finite() && self.grid >= e / 20.0 && self.grid <= e) {
@@ -1114,6 +1118,81 @@ fn loop_polyline(trace: &[Complex64], start: usize, end: usize, spacing: f64) ->
     } else {
         trace[start..=end].to_vec()
     }
+}
+
+/// `log CR(z, U)`: the logarithm of the conformal radius, seen from `z`, of the component `U`
+/// of the complement of the closed polyline `points` that contains `z` (for a self-touching
+/// loop, the interior component holding `z`; CR(z, U) = 1/|φ'(z)| for the conformal map φ of
+/// U onto the unit disk with φ(z) = 0).
+///
+/// U is approximated by the free component of a raster of pixel size `px` in which pixels
+/// within `px/2` of the polyline are blocked, uniformised by the geodesic zipper
+/// ([`crate::geozip`]). The component's boundary lies between `px/2` and `px` inside the
+/// polyline, so the result is biased low by about `px` over the distance from `z` to the loop
+/// (halve `px` to see it). `None` when `z` is not inside the polyline (winding number 0), is
+/// within `px` of it (unresolved at this pixel), or the zipper fails.
+pub fn log_conformal_radius_inside(points: &[Complex64], z: Complex64, px: f64) -> Option<f64> {
+    if points.len() < 3
+        || px.is_nan()
+        || px <= 0.0
+        || winding_number(points, z) == 0
+        || distance_to_polyline(points, z, true) < px
+    {
+        // (Within a pixel of the loop, z's own pixel is blocked: unresolved.)
+        return None;
+    }
+    let (x0, x1, y0, y1) = bounding_box(points);
+    let nx = ((x1 - x0) / px).ceil() as usize + 4;
+    let ny = ((y1 - y0) / px).ceil() as usize + 4;
+    let mut raster = Raster {
+        x0: x0 - 2.0 * px,
+        y0: y0 - 2.0 * px,
+        px,
+        nx,
+        ny,
+        free: vec![true; nx * ny],
+    };
+    raster.block_polyline(points, 0.5 * px, true);
+    // The component holding z: among those whose outline winds around z, the smallest (the
+    // outside component's outline is the raster's border, which winds around z too).
+    let comp = raster
+        .components(0.0)
+        .into_iter()
+        .filter(|c| winding_number(&c.outline, z) != 0)
+        .min_by(|a, b| signed_area(&a.outline).total_cmp(&signed_area(&b.outline)))?;
+    if distance_to_polyline(&comp.outline, z, true) < px {
+        return None;
+    }
+    let zip = GeodesicZipper::new(&comp.outline, z).ok()?;
+    Some(-zip.log_abs_derivative(z)).filter(|v| v.is_finite())
+}
+
+/// `log CR(z, U)` for the outermost closed loop of `config` around `z` ([`outermost_loop_at`]),
+/// with U the component of its complement holding `z`, by [`log_conformal_radius_inside`] at
+/// pixel size `px`; `None` when no closed loop surrounds `z` (then the outermost loop around `z`
+/// is smaller than ε, or missing) or `z` is within `px` of it.
+///
+/// For z in the unit disk, log(1 − |z|²) − log CR(z, U) has the law of Schramm, Sheffield and
+/// Wilson (Comm. Math. Phys. 2009) ([`crate::laws::CleLaw`]). A loop around z with CR(z, U) ≥ ε
+/// has diameter ≥ ε (U lies in the disk of radius diam about z), so the law is observed
+/// without truncation for log CR ≥ log ε.
+pub fn outermost_log_cr_at(config: &LoopConfiguration, z: Complex64, px: f64) -> Option<f64> {
+    log_conformal_radius_inside(&outermost_loop_at(config, z)?.points, z, px)
+}
+
+/// The outermost closed loop of `config` around `z`: the least deep loop flagged closed whose
+/// polyline winds around `z`.
+pub fn outermost_loop_at(config: &LoopConfiguration, z: Complex64) -> Option<&CleLoop> {
+    config
+        .loops
+        .iter()
+        .filter(|l| l.closed && winding_number(&l.points, z) != 0)
+        .min_by_key(|l| l.depth)
+}
+
+/// Distance from `z` to the closed polyline `points`.
+pub fn distance_to_loop(points: &[Complex64], z: Complex64) -> f64 {
+    distance_to_polyline(points, z, true)
 }
 
 /// A raster of a region at resolution `px`: pixels within `r` of the trace or outside the

@@ -4,6 +4,7 @@
 //! The configurations are small (ε = 0.3, a few seconds each); what is checked holds for every
 //! configuration, so one seed per κ is a test, not a sample.
 
+use num_complex::Complex64;
 use sleek::geometry::polylines_cross;
 use sleek::loops::{CleLoop, LoopConfiguration};
 use sleek::polygon::winding_number;
@@ -111,4 +112,30 @@ fn bad_settings_name_the_value() {
     assert!(e.to_string().contains("kappa = 8.5"), "{e}");
     let e = RegionSampler::new(3.0, RegionSettings::defaults(0.001)).unwrap_err();
     assert!(e.to_string().contains("min-size = 0.001"), "{e}");
+}
+
+#[test]
+fn conformal_radius_inside_a_circle_converges_as_the_pixel_shrinks() {
+    // Exact case: the disk of radius R about 0 seen from z has CR = (R² − |z|²)/R (the Möbius
+    // map of the disk; common practice). The raster component sits between px/2 and px inside
+    // the polygon, so the error must be O(px) and shrink when px is halved.
+    use sleek::regions::log_conformal_radius_inside;
+    let r = 0.6;
+    let circle: Vec<Complex64> = (0..720)
+        .map(|k| Complex64::from_polar(r, k as f64 * std::f64::consts::TAU / 720.0))
+        .collect();
+    for z in [Complex64::new(0.0, 0.0), Complex64::new(0.2, -0.15)] {
+        let exact = ((r * r - z.norm_sqr()) / r).ln();
+        let coarse = log_conformal_radius_inside(&circle, z, 0.02).expect("inside");
+        let fine = log_conformal_radius_inside(&circle, z, 0.01).expect("inside");
+        let (e1, e2) = (exact - coarse, exact - fine);
+        // Biased low by between px/2 and px over the distance to the circle (about 0.4–0.6).
+        assert!(e1 > 0.0 && e1 < 0.08, "px 0.02: error {e1} at {z}");
+        assert!(
+            e2 > 0.0 && e2 < 0.6 * e1,
+            "px 0.01: error {e2} against {e1} at {z}"
+        );
+    }
+    // Outside the loop: no component.
+    assert!(log_conformal_radius_inside(&circle, Complex64::new(0.9, 0.0), 0.02).is_none());
 }

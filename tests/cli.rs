@@ -537,6 +537,18 @@ fn loops_rejects_bad_input_in_one_line() {
         &["min-size = 0.001", "0.01 <= min-size <= 1"],
     );
     assert_usage_error(
+        &[
+            "loops",
+            "--kappa",
+            "3",
+            "--min-size",
+            "0.2",
+            "--spacing",
+            "0.5",
+        ],
+        &["spacing = 0.5", "0.004 <= spacing <= 0.1"],
+    );
+    assert_usage_error(
         &["loops", "--kappa", "6", "--at", "1,0.5"],
         &["--at 1,0.5", "inside the unit disk"],
     );

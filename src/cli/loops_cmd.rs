@@ -79,7 +79,10 @@ pub fn run_printing(g: &Global, a: &LoopsArgs, print: bool) -> Result<usize, Fai
         }
     };
     check_plot_path(a.plot.as_deref())?;
-    let settings = RegionSettings::defaults(a.min_size);
+    let mut settings = RegionSettings::defaults(a.min_size);
+    if let Some(sp) = a.spacing {
+        settings.spacing = sp;
+    }
     let sampler = RegionSampler::new(a.kappa, settings)?;
     for &(x, y) in &a.at {
         if x * x + y * y >= 1.0 {
