@@ -68,8 +68,18 @@
 //! Measured at ε = 0.2, seeds 1–3 (`examples/regions_dev.rs`): κ = 6, 8, 7 and 8 loops, of
 //! which 1, 1 and 0 open, with depth-2 loops in seeds 2 and 3; κ = 16/3, 7, 7 and 11 loops, all
 //! closed; κ = 4, 9, 9 and 18, all closed; κ = 3 (no following), 6, 8 and 5, of which 1, 0
-//! and 3 open, and the κ = 3 traces are rougher than SLE_3 should look (narrow fingers at the
-//! spacing). Some loops ≥ ε are missing where a region ended early (`stalled`, `tiny_full`).
+//! and 3 open. The κ = 3 traces look rougher than SLE_3 at the default spacing ε/6: each step's
+//! slit starts at the new driving point, not at the last tip, so the trace carries kinks about
+//! one spacing long; at ε/12 (seed 1, 98 s against 20 s) the loops look like SLE_3 loops.
+//! Some loops ≥ ε are missing where a region ended early (`stalled`, `tiny_full`).
+//!
+//! In law (`examples/regions_law.rs`, [`outermost_loop_at`], [`log_conformal_radius_inside`]):
+//! for the outermost loop around each of 13 grid points (|z| ≤ 1/2), T = log(1 − |z|²) −
+//! log CR(z, U) against the law of Schramm, Sheffield and Wilson (Comm. Math. Phys. 2009).
+//! Only P(T ≤ t) for t ≤ log((1 − |z|²)/ε) is free of the size cut-off, which at ε = 0.2 is
+//! the law's left tail (P(T ≤ 1.25) = 0.024 at κ = 6). κ = 6, ε = 0.2, seeds 1 and 2 (24 and
+//! 48 configurations): 2 and 16 points with T ≤ 1.25 out of 312 and 624, against 7.4 and 14.7
+//! expected; at t = 1, 0 and 6 against 3.4 and 6.9. No discrepancy at this power.
 //! Loops that end away from their start are closed through the fjord's mouth when the
 //! excursion's first stretch passes within [`CLOSE_GAP`] spacings of the tip (`loop_polyline`);
 //! the others are flagged open (kept in the data, not drawn). The force point is then reset to
