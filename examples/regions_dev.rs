@@ -28,6 +28,9 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
     if let Ok(d) = std::env::var("SPACING_DIV") {
         settings.spacing = eps / d.parse::<f64>()?;
     }
+    if std::env::var("TILTED").is_ok() {
+        settings.tilted = Some(true);
+    }
     if let Ok(d) = std::env::var("H_MAX") {
         // (Development: the largest step in radial time.)
         settings.h_max = d.parse::<f64>()?;

@@ -9,7 +9,7 @@
 //! for t ≤ log((1 − |z|²)/ε), where no loop around z is lost to the size cut-off (a loop with
 //! CR(z, U) ≥ ε has diameter ≥ ε). The points of one configuration are dependent, so the
 //! standard error is that of the per-configuration means (configurations are independent).
-//! Environment: `H_MAX` and `SPACING_DIV` change the settings as in `regions_dev`, `PX_DIV`
+//! Environment: `H_MAX`, `SPACING_DIV` and `TILTED` change the settings as in `regions_dev`, `PX_DIV`
 //! the raster pixel of the conformal radius (default spacing/4); `SHOW_T_BELOW=t` lists the
 //! points with T ≤ t (configuration index and point) on stderr.
 
@@ -44,6 +44,9 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
     let mut settings = RegionSettings::defaults(eps);
     if let Ok(d) = std::env::var("SPACING_DIV") {
         settings.spacing = eps / d.parse::<f64>()?;
+    }
+    if std::env::var("TILTED").is_ok() {
+        settings.tilted = Some(true);
     }
     if let Ok(d) = std::env::var("H_MAX") {
         settings.h_max = d.parse::<f64>()?;
@@ -114,9 +117,7 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
          {secs:.0} s; regions ended early: {stalled} stalled, {tiny} tiny_full",
         grid.len()
     );
-    println!(
-        "    t   points T<=t / observable   observed P   s.e.     SSW P    expected   z"
-    );
+    println!("    t   points T<=t / observable   observed P   s.e.     SSW P    expected   z");
     for (k, &t) in ts.iter().enumerate() {
         let per: Vec<f64> = rows
             .iter()

@@ -139,3 +139,26 @@ fn conformal_radius_inside_a_circle_converges_as_the_pixel_shrinks() {
     // Outside the loop: no component.
     assert!(log_conformal_radius_inside(&circle, Complex64::new(0.9, 0.0), 0.02).is_none());
 }
+
+/// Tilted steps (experimental) keep the κ ≤ 4 facts: closed loops that do not cross (Rohde &
+/// Schramm, Ann. Math. 2005; Sheffield & Werner, Ann. Math. 2012), no tip outside the disk.
+#[test]
+fn kappa_three_tilted_loops_do_not_cross_and_stay_in_the_disk() {
+    let mut settings = RegionSettings::defaults(0.3);
+    settings.tilted = Some(true);
+    let (c, _) = RegionSampler::new(3.0, settings).unwrap().sample(5, 0);
+    check_structure(&c, 0.3);
+    let closed: Vec<&CleLoop> = c.loops.iter().filter(|l| l.closed).collect();
+    assert!(
+        !closed.is_empty(),
+        "no closed loop at κ = 3, seed 5, tilted"
+    );
+    assert_no_two_cross(&closed);
+    for l in &c.loops {
+        assert!(
+            l.points.iter().all(|z| z.norm() < 1.0),
+            "loop {} leaves the disk",
+            l.id
+        );
+    }
+}

@@ -83,6 +83,7 @@ pub fn run_printing(g: &Global, a: &LoopsArgs, print: bool) -> Result<usize, Fai
     if let Some(sp) = a.spacing {
         settings.spacing = sp;
     }
+    settings.tilted = Some(a.steps == super::args::StepShapeArg::Tilted);
     let sampler = RegionSampler::new(a.kappa, settings)?;
     for &(x, y) in &a.at {
         if x * x + y * y >= 1.0 {
@@ -267,10 +268,15 @@ pub fn run_printing(g: &Global, a: &LoopsArgs, print: bool) -> Result<usize, Fai
             caption: vec![
                 format!(
                     "seed {seed}, ε = {} (loops of diameter ≥ ε), {} loops; trace spacing \
-                     {:.4}; an estimate at this resolution",
+                     {:.4}{}; an estimate at this resolution",
                     a.min_size,
                     conf.loops.iter().filter(|l| l.closed).count(),
-                    settings.spacing
+                    settings.spacing,
+                    if settings.tilted == Some(true) {
+                        ", tilted steps"
+                    } else {
+                        ""
+                    }
                 ),
                 if marked.is_empty() {
                     "colour: nesting depth".to_string()
