@@ -69,7 +69,7 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
         }
     }
     let i2px = Complex64::new(0.0, 2.0 * px);
-    let ts = [0.25, 0.5, 0.75, 1.0, 1.25];
+    let ts = [0.25, 0.5, 0.75, 1.0, 1.25, 1.6, 2.0, 2.3, 3.0];
     let t0 = Instant::now();
     let rows: Vec<Row> = (0..n)
         .into_par_iter()
