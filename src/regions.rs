@@ -71,10 +71,12 @@
 //! Kadanoff (J. Stat. Phys. 2004) from the tip's angle τ, driving moving linearly to the new θ:
 //! a Cayley-frame capacity h/4 and increment (θ − τ)/2, the capacity corrected once by the
 //! construction's exact radial time. τ is carried through every change of frame; at a visit
-//! the frame is rotated to put the tip (τ) at 0. Measured (κ = 3, ε = 0.2, seeds 1–3): 10, 7
-//! and 4 loops, 0, 1 and 0 open, 1 of 10, 1 of 7 and 1 of 4 polylines not simple (vertical: 6,
-//! 8 and 5 loops, 6 of 6 not simple in seed 1), and the loops look like SLE_3 loops, in 60–85 s
-//! against 17–20 s. Seed 2 first traced a child region's tip out of its polygon (a loss of
+//! the frame is rotated to put the tip (τ) at 0. Measured (κ = 3, ε = 0.2, seeds 1–3): 4, 8
+//! and 10 loops, 0, 2 and 0 open, none crossing, 2 of 4, 3 of 8 and 6 of 10 polylines not
+//! simple at the spacing (vertical: 6, 8 and 5 loops, 6 of 6 not simple in seed 1), and the
+//! loops look like SLE_3 loops, in 37–67 s against 17–20 s. The configurations are sensitive
+//! to rounding: the same seeds with the frame's rotation rounded differently gave 10, 7 and 4
+//! loops, and seed 2 then traced a child region's tip out of its polygon (a loss of
 //! precision); a tip outside the disk or outside the region's bounding box by a spacing now
 //! ends the region (`stalled`). At κ = 6 (seed 1) tilted steps found 5 loops in 76 s against
 //! 8 in 25 s, so they are not the default anywhere yet.
@@ -898,34 +900,20 @@ impl RegionSampler {
             }
             if st.visit == EndVisit::None {
                 let side = if st.theta >= 0.0 { -1.0 } else { 1.0 };
-                if tilted {
-                    let step = tilted_step(tau, st.theta, h);
-                    let after = step.tip_angle_after();
-                    let eta = self.push_step(
-                        step,
-                        step.tip(),
-                        side,
-                        &mut chain,
-                        &map,
-                        &mut trace,
-                        &mut grid,
-                        &mut scale,
-                    );
-                    tau = st.theta + principal(after - eta - st.theta);
-                } else {
-                    let step = RadialStep::new(st.theta, h);
-                    self.push_step(
-                        step,
-                        step.tip(),
-                        side,
-                        &mut chain,
-                        &map,
-                        &mut trace,
-                        &mut grid,
-                        &mut scale,
-                    );
-                    tau = st.theta;
-                }
+                let tilt = tilted.then(|| tilted_step(tau, st.theta, h));
+                let vert = RadialStep::new(st.theta, h);
+                let (step, tip): (&dyn FrameStep, Complex64) = match &tilt {
+                    Some(t) => (t, t.tip()),
+                    None => (&vert, vert.tip()),
+                };
+                let eta = self.push_step(
+                    step, tip, side, &mut chain, &map, &mut trace, &mut grid, &mut scale,
+                );
+                // The tip's angle after the step (vertical slits: θ, the scheme's convention).
+                tau = match &tilt {
+                    Some(t) => st.theta + principal(t.tip_angle_after() - eta - st.theta),
+                    None => st.theta,
+                };
                 diag.steps += 1;
                 h_prev = h;
                 theta = st.theta;
@@ -1076,9 +1064,9 @@ impl RegionSampler {
     /// force point, moved to its image on `side` of the slit's base, is at 0 again; record the
     /// tip in the plane and update the scale estimate.
     #[allow(clippy::too_many_arguments)]
-    fn push_step<S: FrameStep>(
+    fn push_step(
         &self,
-        step: S,
+        step: &dyn FrameStep,
         tip_in_frame: Complex64,
         side: f64,
         chain: &mut DiskChain,
@@ -1088,8 +1076,7 @@ impl RegionSampler {
         scale: &mut f64,
     ) -> f64 {
         let tip = map.to_plane(chain.apply_prefix(chain.len(), tip_in_frame));
-        // (Within π of 0: the force point moves little in a step.)
-        let eta = principal(step.forward_boundary_angle(0.0, side));
+        let eta = step.forward_boundary_angle(0.0, side);
         chain.push(step.as_disk_map(Complex64::from_polar(1.0, -eta)));
         if let Some(&prev) = trace.last() {
             let d = (tip - prev).norm();
@@ -1101,7 +1088,8 @@ impl RegionSampler {
         }
         trace.push(tip);
         grid.touch(tip);
-        eta
+        // (Within π of 0: the force point moves little in a step.)
+        principal(eta)
     }
 
     /// An excursion closed with the target outside it: keep it if it is large enough, and take

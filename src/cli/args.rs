@@ -508,8 +508,8 @@ pub struct LoopsArgs {
     pub spacing: Option<f64>,
     /// Step shape. vertical: slits at the driving point (default). tilted (experimental):
     /// slits that continue from the last tip, without the kinks; at κ = 3, ε = 0.2 the loops
-    /// look like SLE_3 loops at the default spacing, in 3–4× the time, and one seed of three
-    /// lost a region to a loss of precision (README, "Accuracy and limitations").
+    /// look like SLE_3 loops at the default spacing, in 2–4× the time; a region whose tip
+    /// loses precision ends early (README, "Accuracy and limitations").
     #[arg(long, value_enum, default_value = "vertical")]
     pub steps: StepShapeArg,
     /// Marked point x,y with x² + y² < 1 (repeatable): the loops around it are listed and drawn
