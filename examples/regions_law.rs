@@ -16,9 +16,7 @@
 use num_complex::Complex64;
 use rayon::prelude::*;
 use sleek::laws::CleLaw;
-use sleek::regions::{
-    distance_to_loop, log_conformal_radius_inside, outermost_loop_at, RegionSampler, RegionSettings,
-};
+use sleek::regions::{outermost_log_cr_at, RegionSampler, RegionSettings};
 use std::time::Instant;
 
 /// One configuration: for each t, (points with T ≤ t, points where t is observable); then the
@@ -68,7 +66,6 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
             }
         }
     }
-    let i2px = Complex64::new(0.0, 2.0 * px);
     let ts = [0.25, 0.5, 0.75, 1.0, 1.25, 1.6, 2.0, 2.3, 3.0];
     let t0 = Instant::now();
     let rows: Vec<Row> = (0..n)
@@ -79,19 +76,8 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
             for &z in &grid {
                 let w = (1.0 - z.norm_sqr()).ln();
                 let t_max = w - eps.ln();
-                // A point within a pixel of its loop is unresolved: the first of four points
-                // two pixels away that is not takes its place (a shift of O(px)).
-                let mut t = None;
-                for q in [z, z + 2.0 * px, z - 2.0 * px, z + i2px, z - i2px] {
-                    match outermost_loop_at(&c, q) {
-                        None => break,
-                        Some(l) if distance_to_loop(&l.points, q) < px => continue,
-                        Some(l) => {
-                            t = log_conformal_radius_inside(&l.points, q, px).map(|v| w - v);
-                            break;
-                        }
-                    }
-                }
+                // (A point within a pixel of its loop is moved two pixels: module docs.)
+                let t = outermost_log_cr_at(&c, z, px).map(|l| w - l);
                 if let (Ok(lim), Some(t)) = (std::env::var("SHOW_T_BELOW"), t) {
                     if t <= lim.parse::<f64>().unwrap_or(0.0) {
                         eprintln!("configuration {i}: T = {t:.3} at {z}");

@@ -1261,14 +1261,23 @@ pub fn log_conformal_radius_inside(points: &[Complex64], z: Complex64, px: f64) 
 /// `log CR(z, U)` for the outermost closed loop of `config` around `z` ([`outermost_loop_at`]),
 /// with U the component of its complement holding `z`, by [`log_conformal_radius_inside`] at
 /// pixel size `px`; `None` when no closed loop surrounds `z` (then the outermost loop around `z`
-/// is smaller than ε, or missing) or `z` is within `px` of it.
+/// is smaller than ε, or missing). A point within `px` of its loop is unresolved at this pixel:
+/// the first of the four points `2px` away (right, left, up, down) that is not takes its place,
+/// a shift of O(px); `None` if all are.
 ///
 /// For z in the unit disk, log(1 − |z|²) − log CR(z, U) has the law of Schramm, Sheffield and
 /// Wilson (Comm. Math. Phys. 2009) ([`crate::laws::CleLaw`]). A loop around z with CR(z, U) ≥ ε
 /// has diameter ≥ ε (U lies in the disk of radius diam about z), so the law is observed
 /// without truncation for log CR ≥ log ε.
 pub fn outermost_log_cr_at(config: &LoopConfiguration, z: Complex64, px: f64) -> Option<f64> {
-    log_conformal_radius_inside(&outermost_loop_at(config, z)?.points, z, px)
+    let (d, id) = (Complex64::new(2.0 * px, 0.0), Complex64::new(0.0, 2.0 * px));
+    for q in [z, z + d, z - d, z + id, z - id] {
+        let l = outermost_loop_at(config, q)?;
+        if distance_to_polyline(&l.points, q, true) >= px {
+            return log_conformal_radius_inside(&l.points, q, px);
+        }
+    }
+    None
 }
 
 /// The outermost closed loop of `config` around `z`: the least deep loop flagged closed whose
@@ -1279,11 +1288,6 @@ pub fn outermost_loop_at(config: &LoopConfiguration, z: Complex64) -> Option<&Cl
         .iter()
         .filter(|l| l.closed && winding_number(&l.points, z) != 0)
         .min_by_key(|l| l.depth)
-}
-
-/// Distance from `z` to the closed polyline `points`.
-pub fn distance_to_loop(points: &[Complex64], z: Complex64) -> f64 {
-    distance_to_polyline(points, z, true)
 }
 
 /// A raster of a region at resolution `px`: pixels within `r` of the trace or outside the
