@@ -18,10 +18,11 @@
 //! with `R` the chord from `c` to the arc's ends,
 //! `H_B(z) = a₋₁ (z − c) + a₀ + Σ_{m≥1} a_m (z − c)^{−m}` for `|z − c| > R`,
 //! and `F_B = M_q ∘ H_B`. The coefficients come from samples of `H_B` on the circle
-//! `|z − c| = 2R` (outside D by reflection) and a discrete Fourier transform (spectrally accurate
-//! for analytic periodic data; common practice, e.g. Trefethen & Weideman, SIAM Rev. 2014). A
-//! point goes through a block by its series when `|z − c| > 3R` (truncation about `3^{−29}` of the
-//! block's scale), otherwise through the block's two halves, down to leaves of eight maps
+//! `|z − c| = 1.4 R` (outside D by reflection) and a discrete Fourier transform of length 128
+//! (spectrally accurate for analytic periodic data, aliasing about `1.4^{−128}`; common
+//! practice, e.g. Trefethen & Weideman, SIAM Rev. 2014). A point goes through a block by its
+//! 60-term series when `|z − c| > 1.8 R` (truncation about `1.8^{−61} ≈ 3·10⁻¹⁶` of the block's
+//! scale), otherwise through the block's two halves, down to leaves of eight maps
 //! composed directly. The chordal version of the same idea is [`crate::fast`]; the disk differs
 //! in complex coefficients, arcs on the circle instead of real intervals, and the automorphism
 //! factor `M_q`, which is what a fixed Cayley frame could not absorb.
@@ -294,14 +295,16 @@ fn union_opt(a: Option<Arc>, b: Option<Arc>) -> Option<Arc> {
 /// Maps in a leaf block.
 const LEAF: usize = 8;
 /// Laurent coefficients `a₁ … a_TERMS` kept per block (plus `a₋₁`, `a₀`).
-const TERMS: usize = 28;
-/// Samples on the circle `|z − c| = 2R` (the DFT length).
-const SAMPLES: usize = 64;
+const TERMS: usize = 60;
+/// Samples on the circle `|z − c| = SAMPLE_RADIUS · R` (the DFT length).
+const SAMPLES: usize = 128;
+/// Radius of the sampling circle in units of the arc's chord radius `R`.
+const SAMPLE_RADIUS: f64 = 1.4;
 /// Series used only when `|z − c| > ACCEPT · R`.
-const ACCEPT: f64 = 3.0;
-/// Blocks whose arc's chord radius exceeds this keep no series (the acceptance disk would cover
-/// most of D).
-const MAX_RADIUS: f64 = 0.3;
+const ACCEPT: f64 = 1.8;
+/// Blocks whose arc's chord radius exceeds this keep no series (their acceptance disk would
+/// cover all of D).
+const MAX_RADIUS: f64 = 1.0;
 
 #[derive(Debug, Clone)]
 struct Node {
@@ -452,10 +455,11 @@ impl DiskChain {
         node
     }
 
-    /// Series coefficients of `H_B = M_q⁻¹ ∘ F_B` about the node's centre, from samples on the
-    /// circle of radius 2R (points outside D by Schwarz reflection).
+    /// Series coefficients of `H_B = M_q⁻¹ ∘ F_B` about the node's centre, scaled as
+    /// `b_m = a_m r^{−m}` (m = −1, 0, 1, …, TERMS), from samples on the circle of radius
+    /// `r = SAMPLE_RADIUS · R` (points outside D by Schwarz reflection).
     fn sample_coefficients(&self, level: usize, k: usize, node: &Node) -> [Complex64; TERMS + 2] {
-        let r = 2.0 * node.radius;
+        let r = SAMPLE_RADIUS * node.radius;
         let tw = twiddles();
         let q = node.q;
         let mut f = [Complex64::new(0.0, 0.0); SAMPLES];
@@ -476,7 +480,7 @@ impl DiskChain {
             for (j, fj) in f.iter().enumerate() {
                 s += fj * tw[(m * j as i64).rem_euclid(SAMPLES as i64) as usize];
             }
-            *am = s / SAMPLES as f64 * r.powi(m as i32);
+            *am = s / SAMPLES as f64;
         }
         a
     }
@@ -488,12 +492,16 @@ impl DiskChain {
             if n.has_series {
                 let w = z - n.centre;
                 if w.norm() > ACCEPT * n.radius {
-                    let u = w.inv();
+                    // Coefficients are stored scaled by the sampling radius r (`b_m = a_m r^{−m}`),
+                    // so the series is a polynomial in `r/(z − c)`, of modulus below
+                    // SAMPLE_RADIUS/ACCEPT: no powers of a tiny arc underflow.
+                    let r = SAMPLE_RADIUS * n.radius;
+                    let v = r / w;
                     let mut s = Complex64::new(0.0, 0.0);
-                    for am in n.coeffs[2..].iter().rev() {
-                        s = (s + am) * u;
+                    for bm in n.coeffs[2..].iter().rev() {
+                        s = (s + bm) * v;
                     }
-                    let h = n.coeffs[0] * w + n.coeffs[1] + s;
+                    let h = n.coeffs[0] * (w / r) + n.coeffs[1] + s;
                     return (h + n.q) / (1.0 + n.q.conj() * h);
                 }
             }
