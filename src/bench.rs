@@ -298,7 +298,8 @@ pub struct LoopsTiming {
     pub kappa: f64,
     /// ε (`min_size`).
     pub min_size: f64,
-    /// Wall-clock seconds (one thread: a configuration is sequential).
+    /// Wall-clock seconds (the regions of one level of the region tree run in parallel on
+    /// rayon's threads).
     pub seconds: f64,
     /// Loops of diameter ≥ ε found.
     pub loops: usize,

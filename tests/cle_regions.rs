@@ -78,6 +78,32 @@ fn a_configuration_is_a_function_of_the_seed() {
     check_structure(&a, 0.3);
 }
 
+/// The regions of one level of the region tree run in parallel; the configuration (loops,
+/// identifiers, parents, step count) must not depend on the number of threads (common practice
+/// for reproducible parallel sampling).
+#[test]
+fn a_configuration_does_not_depend_on_the_thread_count() {
+    let run = |threads: usize| {
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build()
+            .unwrap()
+            .install(|| sample(6.0, 0.4, 3))
+    };
+    let (a, b) = (run(1), run(3));
+    assert!(
+        a.loops.len() > 1,
+        "too few loops to compare: {}",
+        a.loops.len()
+    );
+    assert_eq!(a.diagnostics.steps, b.diagnostics.steps);
+    assert_eq!(a.loops.len(), b.loops.len());
+    for (x, y) in a.loops.iter().zip(&b.loops) {
+        assert_eq!((x.id, x.parent, x.depth), (y.id, y.parent, y.depth));
+        assert_eq!(x.points, y.points);
+    }
+}
+
 /// For κ ≤ 4 the loops are simple and pairwise disjoint (Rohde & Schramm, Ann. Math. 2005 for
 /// the simple SLE_κ traces; Sheffield & Werner, Ann. Math. 2012 for disjointness of CLE_κ
 /// loops): no two closed loops cross. (Their own polylines are not always simple at the

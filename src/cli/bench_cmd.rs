@@ -159,7 +159,7 @@ fn run_loops(g: &Global) -> Result<(), Failure> {
     let seed = g.seed.unwrap_or(1);
     note(
         g,
-        "timing whole CLE configurations (one per row, one thread each, seed fixed)",
+        "timing whole CLE configurations (one per row, seed fixed; the regions of one level of a configuration run in parallel)",
     );
     let rows = bench::run_loops(&kappas, &sizes, seed)?;
     let fits: Vec<serde_json::Value> = kappas
@@ -185,7 +185,10 @@ fn run_loops(g: &Global) -> Result<(), Failure> {
     if write_record(g, "bench-loops.json", &rec)? {
         return Ok(());
     }
-    out!("whole CLE configurations (sleek loops), seed {seed}, one thread each");
+    out!(
+        "whole CLE configurations (sleek loops), seed {seed}, {} threads (the regions of one level of a configuration run in parallel)",
+        rayon::current_num_threads()
+    );
     out!(
         "{:>6}  {:>5}  {:>9}  {:>6}  {:>9}  {:>9}  {:>10}  {:>8}",
         "κ",

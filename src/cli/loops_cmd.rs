@@ -278,6 +278,7 @@ pub fn run_printing(g: &Global, a: &LoopsArgs, print: bool) -> Result<usize, Fai
                         ""
                     }
                 ),
+                caveats(open, early, conf.diagnostics.truncated),
                 if marked.is_empty() {
                     "colour: nesting depth".to_string()
                 } else {
@@ -333,6 +334,30 @@ pub fn run_printing(g: &Global, a: &LoopsArgs, print: bool) -> Result<usize, Fai
         emit_json(to_json(&summary, "the summary")?)?;
     }
     Ok(drawn)
+}
+
+/// The caption's line on what the picture may lack: open loops (not drawn), regions that ended
+/// early (loops there can be missing), a spent step budget.
+fn caveats(open: usize, early: u64, truncated: bool) -> String {
+    let mut parts = Vec::new();
+    if open > 0 {
+        parts.push(format!(
+            "{open} loop(s) that did not close in the discrete chain are not drawn"
+        ));
+    }
+    if early > 0 {
+        parts.push(format!(
+            "{early} region(s) ended early, loops there can be missing"
+        ));
+    }
+    if truncated {
+        parts.push("the step budget ran out: incomplete".to_string());
+    }
+    if parts.is_empty() {
+        "no region ended early; loops smaller than ε are not sampled, and this version can miss some larger ones (README)".to_string()
+    } else {
+        parts.join("; ")
+    }
 }
 
 /// Print a JSON document on stdout.

@@ -1,13 +1,16 @@
-//! The built-in tour (`sleek` with no subcommand): a small gallery of chordal SLE_κ curves, CLE
-//! conformal-radius panels and a
-//! short audit report, written to `output/` (or --out).
+//! The built-in tour (`sleek` with no subcommand): a small gallery of chordal SLE_κ curves, whole
+//! CLE_κ configurations for κ = 3, 4, 16/3 and 6, CLE conformal-radius panels and a short audit
+//! report, written to `output/` (or --out).
 
-use super::args::{DomainArg, Global, MethodArg, StepArg, TraceArgs};
+use super::args::{
+    DomainArg, Global, LoopStyleArg, LoopsArgs, MethodArg, StepArg, StepShapeArg, TraceArgs,
+};
 use super::audit_cmd::{run_audit, write_reports};
 use super::common::note;
 use super::common::out;
 use super::trace_cmd::{export, sample};
 use super::Failure;
+use rayon::prelude::*;
 use sleek::audit::AuditSettings;
 use std::path::PathBuf;
 
@@ -106,6 +109,10 @@ const GALLERY: [Scene; 7] = [
     },
 ];
 
+/// Smallest loop diameter of the tour's CLE configurations (a few seconds each; a full
+/// picture needs ε = 0.02, see `sleek bench --loops`).
+const TOUR_LOOP_SIZE: f64 = 0.2;
+
 pub fn run(g: &Global) -> Result<(), Failure> {
     let start = std::time::Instant::now();
     let out = g.out.clone().unwrap_or_else(|| PathBuf::from("output"));
@@ -165,6 +172,63 @@ pub fn run(g: &Global) -> Result<(), Failure> {
             ),
         );
     }
+    // Whole CLE configurations (`sleek loops`), one per κ: simple disjoint loops at κ = 3 and 4,
+    // touching ones at 16/3 and 6. Tilted steps at κ = 3, where vertical ones leave kinks at
+    // this spacing; at κ = 4 tilted steps end more regions early (README, "Accuracy and
+    // limitations"). The four run side by side: each explores its region tree level by level.
+    let scenes = [
+        (3.0, "cle-loops-kappa-3", true),
+        (4.0, "cle-loops-kappa-4", false),
+        (16.0 / 3.0, "cle-loops-kappa-16over3", false),
+        (6.0, "cle-loops-kappa-6", false),
+    ];
+    let results: Vec<Result<(usize, PathBuf, PathBuf), Failure>> = scenes
+        .par_iter()
+        .enumerate()
+        .map(|(j, &(kappa, name, tilted))| {
+            let dir = out.join("gallery");
+            let json = dir.join(format!("{name}.json"));
+            let png = dir.join(format!("{name}.png"));
+            let a = LoopsArgs {
+                kappa,
+                min_size: TOUR_LOOP_SIZE,
+                spacing: None,
+                steps: if tilted {
+                    StepShapeArg::Tilted
+                } else {
+                    StepShapeArg::Vertical
+                },
+                at: vec![],
+                export_json: Some(json.clone()),
+                export_csv: None,
+                plot: Some(png.clone()),
+                style: LoopStyleArg::Filled,
+            };
+            let gs = Global {
+                seed: Some(seed.wrapping_add(100 + j as u64)),
+                quiet: true,
+                ..g.clone()
+            };
+            let drawn = super::loops_cmd::run_printing(&gs, &a, false)?;
+            Ok((drawn, json, png))
+        })
+        .collect();
+    for ((_, name, _), r) in scenes.iter().zip(results) {
+        let (drawn, json, png) = r?;
+        written.push(json.display().to_string());
+        written.push(png.display().to_string());
+        note(
+            &g,
+            &format!("{name}: {drawn} loops of diameter ≥ {TOUR_LOOP_SIZE}"),
+        );
+    }
+    note(
+        &g,
+        &format!(
+            "CLE configurations ({:.1} s)",
+            start.elapsed().as_secs_f64()
+        ),
+    );
     // CLE conformal radii at three points of one configuration, against the exact law.
     for (kappa, name) in [(3.0, "cle-radii-kappa-3"), (6.0, "cle-radii-kappa-6")] {
         let settings = sleek::radii::RadiiSettings {
