@@ -188,3 +188,18 @@ fn kappa_three_tilted_loops_do_not_cross_and_stay_in_the_disk() {
         );
     }
 }
+
+/// A loop still being traced when every grid point of its region is covered is finished, not
+/// dropped: in this configuration (κ = 16/3, ε = 0.2, seed 20261303) the disk's exploration
+/// once ended with a 25 000-point excursion in progress and drew no loop over half the disk.
+/// The regions that end normally must leave no excursion behind (regression, found by looking
+/// at the tour's picture).
+#[test]
+fn a_loop_in_progress_is_finished_when_its_region_is_covered() {
+    let sampler = RegionSampler::new(16.0 / 3.0, RegionSettings::defaults(0.2)).expect("valid");
+    let (c, rd) = sampler.sample(20261303, 0);
+    assert!(!c.diagnostics.truncated);
+    assert_eq!(rd.stalled, 0, "{rd:?}");
+    // (Before the fix: 25 169 dropped points, measured.)
+    assert_eq!(rd.dropped_points, 0, "{rd:?}");
+}
