@@ -93,7 +93,7 @@ pub enum Command {
     /// One radial SLE_κ(κ−6) exploration per region (the disk, then each loop's interior and
     /// each pocket the trace cut off, uniformised afresh by the geodesic zipper); for κ ≥ 4 the
     /// target moves with the loop being traced until it closes. First version: some loops (at
-    /// ε = 0.2 about one in ten for κ ≥ 4, more for κ < 4) do not return to their start in the
+    /// ε = 0.2, seeds 1–3: 3 of 91 for κ ≥ 4, 4 of 18 at κ = 3) do not return to their start in the
     /// discrete chain; they are kept in the data with "closed": false and not drawn (see the
     /// README). The loops are estimates at a stated resolution: trace points
     /// about --min-size/6 apart, and a loop whose interior has no point farther than
