@@ -630,4 +630,18 @@ fn loops_exports_have_the_documented_layout() {
     assert_eq!(summary["closed"].as_u64().unwrap() as usize, closed);
     assert_eq!(summary["marked"][0]["point"], serde_json::json!([0.0, 0.0]));
     assert!(summary["diagnostics"]["regions"].as_u64().unwrap() >= 1);
+    // The loops around the marked point, with conformal radii seen from it: the same in the
+    // file and the summary, and T = log(1 − |z|²) − log CR(z, U) ≥ 0 because U ⊂ D and the
+    // conformal radius is monotone in the domain (Schwarz lemma; common practice).
+    assert_eq!(v["around_marked"], summary["marked"]);
+    let around = summary["marked"][0]["loops"].as_array().unwrap();
+    // (This seed has one closed loop around 0, with T = 4.2: the check below is not vacuous.)
+    assert!(around.iter().any(|l| l["t"].is_f64()), "{around:?}");
+    for l in around {
+        assert!(l["id"].is_u64() && l["depth"].as_u64().unwrap() >= 1);
+        if let Some(t) = l["t"].as_f64() {
+            assert!(t >= 0.0, "T = {t} < 0 for {l}");
+            assert!((t + l["log_cr"].as_f64().unwrap()).abs() < 1e-12, "{l}");
+        }
+    }
 }

@@ -4,11 +4,14 @@ use super::args::{Global, LoopStyleArg, LoopsArgs};
 use super::common::{check_plot_path, emit, note, resolve_seed, to_json, write_file};
 use super::Failure;
 use num_complex::Complex64;
+use rayon::prelude::*;
 use serde::Serialize;
 use sleek::loops::CleLoop;
 use sleek::plot_loops::{DrawnLoop, LoopFigure, LoopStyle};
 use sleek::polygon::winding_number;
-use sleek::regions::{RegionDiagnostics, RegionSampler, RegionSettings};
+use sleek::regions::{
+    log_conformal_radius_inside, RegionDiagnostics, RegionSampler, RegionSettings,
+};
 use std::path::PathBuf;
 use std::time::Instant;
 
@@ -21,6 +24,8 @@ struct Export<'a> {
     settings: &'a RegionSettings,
     resolution: Resolution,
     marked: Vec<[f64; 2]>,
+    /// The loops around each marked point, with conformal radii seen from it.
+    around_marked: &'a [MarkedOut],
     loops: Vec<LoopOut<'a>>,
     diagnostics: &'a RegionDiagnostics,
     steps: u64,
@@ -137,16 +142,22 @@ pub fn run_printing(g: &Global, a: &LoopsArgs, print: bool) -> Result<usize, Fai
     }
     emit(format_args!(
         "CLE_κ, κ = {}, seed {seed}, ε = {}: {} loops of diameter ≥ ε in {:.1} s ({} steps, {} \
-         regions)",
+         regions; {:.2} loops/s, {:.0} steps/s on {} threads)",
         a.kappa,
         a.min_size,
         conf.loops.len(),
         seconds,
         conf.diagnostics.steps,
-        rd.regions
+        rd.regions,
+        conf.loops.len() as f64 / seconds.max(1e-9),
+        conf.diagnostics.steps as f64 / seconds.max(1e-9),
+        rayon::current_num_threads()
     ))?;
     for (d, n) in &by_depth {
-        emit(format_args!("  depth {d}: {n} loops"))?;
+        emit(format_args!(
+            "  depth {d}: {n} loop{}",
+            if *n == 1 { "" } else { "s" }
+        ))?;
     }
     emit(format_args!(
         "  resolution: spacing {:.4} (largest gap {:.4}); loops whose interior has no point \
@@ -192,19 +203,51 @@ pub fn run_printing(g: &Global, a: &LoopsArgs, print: bool) -> Result<usize, Fai
             around
         })
         .collect();
-    for (i, (z, around)) in marked.iter().zip(&around_marked).enumerate() {
-        let list: Vec<String> = around
+    // Seen from each marked point: log CR(z, U) for U the component of each closed loop's
+    // interior holding z, on a raster of an eighth of the spacing (`regions::
+    // log_conformal_radius_inside`; biased low by about that pixel over the distance to the loop).
+    let px = settings.spacing / 8.0;
+    let marked_loops: Vec<MarkedOut> = marked
+        .par_iter()
+        .zip(&around_marked)
+        .map(|(z, around)| MarkedOut {
+            point: [z.re, z.im],
+            loops: around
+                .iter()
+                .map(|l| {
+                    let log_cr = if l.closed {
+                        log_conformal_radius_inside(&l.points, *z, px)
+                    } else {
+                        None
+                    };
+                    MarkedLoop {
+                        id: l.id,
+                        depth: l.depth,
+                        closed: l.closed,
+                        log_cr,
+                        t: log_cr.map(|c| (1.0 - z.norm_sqr()).ln() - c),
+                    }
+                })
+                .collect(),
+        })
+        .collect();
+    for (i, (z, m)) in marked.iter().zip(&marked_loops).enumerate() {
+        let list: Vec<String> = m
+            .loops
             .iter()
             .map(|l| match l.log_cr {
                 Some(c) => format!("loop {} (depth {}, log CR {:.3})", l.id, l.depth, c),
-                None => format!("loop {} (depth {})", l.id, l.depth),
+                None if !l.closed => format!("loop {} (depth {}, open)", l.id, l.depth),
+                None => format!("loop {} (depth {}, CR unresolved)", l.id, l.depth),
             })
             .collect();
+        let around = &m.loops;
         emit(format_args!(
-            "  point {i} ({}, {}): {} loops around it{}{}",
+            "  point {i} ({}, {}): {} loop{} around it{}{}",
             z.re,
             z.im,
             around.len(),
+            if around.len() == 1 { "" } else { "s" },
             if list.is_empty() { "" } else { ": " },
             list.join(", ")
         ))?;
@@ -223,6 +266,7 @@ pub fn run_printing(g: &Global, a: &LoopsArgs, print: bool) -> Result<usize, Fai
                 note: NOTE,
             },
             marked: marked.iter().map(|z| [z.re, z.im]).collect(),
+            around_marked: &marked_loops,
             loops: conf
                 .loops
                 .iter()
@@ -318,14 +362,7 @@ pub fn run_printing(g: &Global, a: &LoopsArgs, print: bool) -> Result<usize, Fai
             spacing: settings.spacing,
             largest_gap,
             note: NOTE,
-            marked: marked
-                .iter()
-                .zip(&around_marked)
-                .map(|(z, around)| MarkedOut {
-                    point: [z.re, z.im],
-                    loops: around.iter().map(|l| l.id).collect(),
-                })
-                .collect(),
+            marked: &marked_loops,
             diagnostics: &rd,
             steps: conf.diagnostics.steps,
             truncated: conf.diagnostics.truncated,
@@ -379,19 +416,32 @@ struct Summary<'a> {
     spacing: f64,
     largest_gap: f64,
     note: &'static str,
-    /// Each marked point with the ids of the loops around it, outermost first.
-    marked: Vec<MarkedOut>,
+    /// Each marked point with the loops around it, outermost first.
+    marked: &'a [MarkedOut],
     diagnostics: &'a RegionDiagnostics,
     steps: u64,
     truncated: bool,
     seconds: f64,
 }
 
-/// A marked point in the `--json` summary.
+/// A marked point with the loops around it, outermost first (summary and export).
 #[derive(Serialize)]
 struct MarkedOut {
     point: [f64; 2],
-    loops: Vec<usize>,
+    loops: Vec<MarkedLoop>,
+}
+
+/// A loop around a marked point z.
+#[derive(Serialize)]
+struct MarkedLoop {
+    id: usize,
+    depth: u32,
+    closed: bool,
+    /// log CR(z, U), U the component of the loop's interior holding z (null when the loop is
+    /// open or z is within a raster pixel of it).
+    log_cr: Option<f64>,
+    /// T = log(1 − |z|²) − log CR(z, U): for the outermost loop, Schramm–Sheffield–Wilson's law.
+    t: Option<f64>,
 }
 
 /// κ as the user would write it: 16/3 and 8/3 as fractions, others in decimals.
