@@ -5,7 +5,7 @@
 //! every configuration, so one seed per κ is a test, not a sample.
 
 use num_complex::Complex64;
-use sleek::geometry::polylines_cross;
+use sleek::geometry::{polylines_cross, vertex_distance};
 use sleek::loops::{CleLoop, LoopConfiguration};
 use sleek::polygon::winding_number;
 use sleek::regions::{RegionSampler, RegionSettings};
@@ -104,42 +104,20 @@ fn a_configuration_does_not_depend_on_the_thread_count() {
     }
 }
 
-/// For each loop, the distance to the nearest other loop, in units of `spacing`, capped at two
-/// spacings (vertices only: the polylines' points are at most about a spacing apart).
+/// For each loop, the distance to the nearest other loop (vertices, `geometry::vertex_distance`),
+/// in units of `spacing`, capped at two spacings.
 fn nearest_other_loop(closed: &[&CleLoop], spacing: f64) -> Vec<f64> {
-    use std::collections::HashMap;
     let h = 2.0 * spacing;
-    let cell = |z: Complex64| ((z.re / h).floor() as i64, (z.im / h).floor() as i64);
-    let buckets: Vec<HashMap<(i64, i64), Vec<Complex64>>> = closed
-        .iter()
-        .map(|l| {
-            let mut b: HashMap<(i64, i64), Vec<Complex64>> = HashMap::new();
-            for &z in &l.points {
-                b.entry(cell(z)).or_default().push(z);
-            }
-            b
-        })
-        .collect();
     closed
         .iter()
         .enumerate()
         .map(|(i, l)| {
-            let mut m = h;
-            for (j, b) in buckets.iter().enumerate() {
-                if j == i {
-                    continue;
-                }
-                for &z in &l.points {
-                    let (cx, cy) = cell(z);
-                    for dx in -1..=1 {
-                        for dy in -1..=1 {
-                            for w in b.get(&(cx + dx, cy + dy)).into_iter().flatten() {
-                                m = m.min((z - w).norm());
-                            }
-                        }
-                    }
-                }
-            }
+            let m = closed
+                .iter()
+                .enumerate()
+                .filter(|&(j, _)| j != i)
+                .map(|(_, o)| vertex_distance(&l.points, &o.points, h))
+                .fold(h, f64::min);
             m / spacing
         })
         .collect()
