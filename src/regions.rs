@@ -41,8 +41,22 @@
 //! polygon uniformised from the plane, and every chain explores only its own region.
 //!
 //! # Resolution, and what is approximate
-//! * Steps are sized so that the tip moves about `spacing` (default ε/6) in the plane; the map's
-//!   scale at the tip is estimated from the previous step.
+//! * Steps are sized so that the tip moves about `spacing` (default ε/6) in the plane (the map's
+//!   scale at the tip estimated from the previous step), but the probe of the step control
+//!   (the boundary arc the driving can reach, ±3.5√(κh), must map within `probe_room`, 1.5
+//!   spacings, of the tip) binds almost always, and near the tip that arc's image is about
+//!   (3.5√κ/2)² times the tip's move: consecutive trace points are a median 0.06 spacings
+//!   apart, 99% within 0.5 spacings and all within about 3 (κ = 4 and 6, ε = 0.25, seeds 1–3).
+//!   So `spacing` bounds the resolution; it is not the typical gap. A probe room of 4 spacings
+//!   cut the steps 3–5× but changed the result: κ = 4, ε = 0.25, seeds 1–3, 11 loops ≥ ε
+//!   against 23 (20 at spacing ε/12), and at κ = 3 most loops did not close. Measured
+//!   (ε = 0.25, seeds 11–20, 2026-12-04), the step control of today (`h_max` 0.05 instead of
+//!   0.01, steps shrunk by the probe's ratio and started from its last prediction instead of
+//!   ×¼ from 4× the last step) against the one before: κ = 6, 64 loops (60 closed) in 64 s
+//!   against 53 in 121 s; κ = 4, 61 against 72 loops (z = −1.3 on the per-configuration
+//!   spread) in 73 s against 97 s; regions ended early (`stalled`) 9 against 1 at κ = 6, all
+//!   by the window rule below, which the old rule let crawl (one region at ε = 0.05 crawled
+//!   550 000 steps).
 //! * A region is explored until every point of a square grid of spacing `grid` (default ε/6)
 //!   that is still in the remaining domain lies within `stop_room` (default ε/8) of the trace
 //!   or the region's boundary. A loop of diameter ≥ ε whose interior holds no such grid point
@@ -53,9 +67,10 @@
 //! * A loop that closes around the target anyway (no grid point with room outside it that the
 //!   frame resolves) leaves the outside to the pass over what remains (below); such points are
 //!   counted (`lost_points`). When that loop is smaller than ε (the target sat behind a neck at
-//!   the tip narrower than the steps), or when the steps sit at their floor of 10⁻¹⁴ twenty
-//!   times in a row (the frame no longer resolves the tip), the region's exploration ends there
-//!   (`tiny_full`, `stalled`) and the excursion in progress is dropped.
+//!   the tip narrower than the steps), or when the steps of a window of 1000 average under
+//!   10⁻¹³ of radial time (the floor is 10⁻¹⁴; the frame no longer resolves the tip), the
+//!   region's exploration ends there (`tiny_full`, `stalled`) and the excursion in progress is
+//!   dropped.
 //! * When every grid point is covered while a loop is still being traced, the exploration goes
 //!   on towards its last target until that loop closes (at most as many more steps as the
 //!   trace has points, at least 5000; otherwise `stalled`). Dropping it lost whole loops:
@@ -96,7 +111,8 @@
 //! dominates: κ = 6, ε = 0.2, seed 1, 20.5 s → 18.3 s on 2 cores.
 //!
 //! # Status (issue 5 open)
-//! Measured at ε = 0.2, seeds 1–3 (`sleek loops --json`, 2026-12-04): κ = 6, 8, 8 and 10
+//! Measured at ε = 0.2, seeds 1–3 (`sleek loops --json`, 2026-12-04, with the step control
+//! before the second session of that day; later counts: "Resolution" above): κ = 6, 8, 8 and 10
 //! loops, of which 0, 1 and 1 open, with depth-2 loops in seeds 2 and 3; κ = 16/3, 17, 8 and 8,
 //! 0, 1 and 0 open; κ = 4, 9, 11 and 12, all closed; κ = 3 (no following), 6, 8 and 4, of which
 //! 1, 0 and 3 open. The κ = 3 traces look rougher than SLE_3 at the default spacing ε/6: each step's
@@ -152,8 +168,9 @@ const UNREACHED: f64 = 1e-6;
 /// an end from farther away, has probability about e^{−6}).
 const PROBE_REACH: f64 = 3.5;
 
-/// A region whose steps sit at the floor (10⁻¹⁴) this many times in a row has a frame that no
-/// longer resolves the tip; its exploration ends (`stalled`).
+/// A region whose steps over a window of this many average under 10⁻¹³ of radial time (the
+/// floor is 10⁻¹⁴) has a frame that no longer resolves the tip; its exploration ends
+/// (`stalled`).
 const STALL_STEPS: u32 = 1000;
 /// Steps allowed (at least) for finishing a loop in progress once a region's grid is covered;
 /// otherwise as many steps as the region's trace has points.
@@ -179,8 +196,14 @@ pub struct RegionSettings {
     /// A region is done when no grid point of its remaining domain is farther than this from
     /// the trace and the region's boundary (default ε/8).
     pub stop_room: f64,
-    /// Largest step, in radial time of the current frame (default 0.01).
+    /// Largest step, in radial time of the current frame (default 0.05; it binds only where
+    /// the plane's scale is small, in small regions).
     pub h_max: f64,
+    /// Step control, in spacings: a step's driving angle may move ±3.5√(κh); the boundary arc
+    /// within that reach must map within this distance of the tip in the plane (default 1.5).
+    /// Near the tip that distance grows like the square of the arc (the map opens the tip's
+    /// straight angle to a full turn), so typical steps move the tip a fraction of it.
+    pub probe_room: f64,
     /// The target moves outside the current excursion when |θ| > 2π − `retarget_gap`
     /// (default 1).
     pub retarget_gap: f64,
@@ -201,7 +224,8 @@ impl RegionSettings {
             spacing: min_size / 6.0,
             grid: min_size / 6.0,
             stop_room: min_size / 8.0,
-            h_max: 0.01,
+            h_max: 0.05,
+            probe_room: 1.5,
             retarget_gap: 1.0,
             max_steps: 20_000_000,
             tilted: None,
@@ -248,6 +272,13 @@ impl RegionSettings {
         }
         if !(self.h_max.is_finite() && self.h_max > 0.0 && self.h_max <= 0.1) {
             return Err(Error::param("h-max", self.h_max, "0 < h-max <= 0.1"));
+        }
+        if !(self.probe_room.is_finite() && self.probe_room >= 0.5 && self.probe_room <= 10.0) {
+            return Err(Error::param(
+                "probe-room",
+                self.probe_room,
+                "0.5 <= probe-room <= 10 (spacings)",
+            ));
         }
         if !(self.retarget_gap.is_finite() && self.retarget_gap >= 0.1 && self.retarget_gap <= PI) {
             return Err(Error::param(
@@ -778,7 +809,8 @@ impl RegionSampler {
         grid.touch(start);
         let mut exc_start = 0usize;
         let mut no_outside = false;
-        let mut floor_steps = 0u32;
+        let mut window_time = 0.0f64;
+        let mut window_steps = 0u32;
         // Once every grid point is covered with a loop still in progress: the step count at
         // which finishing it gives up.
         let mut finishing: Option<u64> = None;
@@ -787,6 +819,7 @@ impl RegionSampler {
         // Plane length per unit of frame length at the tip (estimated from the last step).
         let mut scale = 1.0f64;
         let mut h_prev = 1e-8f64;
+        let mut h_guess = f64::INFINITY;
         loop {
             if diag.steps >= budget {
                 diag.truncated = true;
@@ -926,39 +959,51 @@ impl RegionSampler {
                     break;
                 }
             }
-            // Step length: the tip moves about `spacing` in the plane.
+            // Step length: the tip moves about `spacing` in the plane, at most 4× the last step
+            // and at most the probe's last prediction (below).
             let want = s.spacing / (2.0 * scale);
-            let mut h = (want * want).min(s.h_max).min(4.0 * h_prev);
+            let mut h = (want * want).min(s.h_max).min(4.0 * h_prev).min(h_guess);
             // The driving angle can move about ±2√(κh) in the step: the boundary arc it can
-            // reach must map within 1.5 spacings of the tip in the plane (near the force point
-            // that arc can hide a long stretch of the excursion, and a visit of 0 jumps the tip
-            // back to the force point). The step is chosen before it is drawn, from the current
-            // state only, so the law of θ is untouched.
+            // reach (±PROBE_REACH·√(κh)) must map within `probe_room` spacings of the tip in
+            // the plane (near the force point that arc can hide a long stretch of the
+            // excursion, and a visit of 0 jumps the tip back to the force point). The step is
+            // chosen before it is drawn, from the current state only, so the law of θ is
+            // untouched. Near the tip the arc's image grows about linearly in h (the map opens
+            // the tip's straight angle to a full turn), so a rejected step is shrunk by the
+            // ratio (within [1/16, 1/2]) and the next step starts from 0.9× the prediction;
+            // one side is probed first and the other only if it passes.
             let tip_now = *trace.last().unwrap_or(&start);
             let n = chain.len();
             let probe = |a: f64| map.to_plane(chain.apply_prefix(n, Complex64::from_polar(1.0, a)));
+            let room = s.probe_room * s.spacing;
             while h > 1e-14 {
                 let r = PROBE_REACH * (kappa * h).sqrt();
-                let far = (probe(theta + r) - tip_now)
-                    .norm()
-                    .max((probe(theta - r) - tip_now).norm());
-                if far <= 1.5 * s.spacing {
+                let mut far = (probe(theta + r) - tip_now).norm();
+                if far <= room {
+                    far = far.max((probe(theta - r) - tip_now).norm());
+                }
+                if far <= room {
+                    h_guess = h * (0.9 * room / far.max(1e-300)).min(4.0);
                     break;
                 }
-                h *= 0.25;
+                h *= (0.9 * room / far).clamp(1.0 / 16.0, 0.5);
             }
-            if h <= 1e-14 {
-                floor_steps += 1;
-                if floor_steps > STALL_STEPS {
-                    // The frame no longer resolves the tip's neighbourhood (boundary points
-                    // within 10⁻⁷ of the tip map spacings away): the region's exploration
-                    // ends here, the excursion in progress is dropped, and what remains is
-                    // left to the pass over what remains.
+            // Radial time of the last `STALL_STEPS` steps: when it averages under 10⁻¹³ a step
+            // (steps at or near the floor, with an occasional larger one that a count of
+            // consecutive floor steps would miss: κ = 6, ε = 0.05, one region crawled 550 000
+            // steps and 2 GB of maps at h ≈ 10⁻¹⁴ with a tip oscillating between the same
+            // points), the frame no longer resolves the tip's neighbourhood: the region's
+            // exploration ends here, the excursion in progress is dropped, and what remains is
+            // left to the pass over what remains.
+            window_time += h.max(1e-14);
+            window_steps += 1;
+            if window_steps == STALL_STEPS {
+                if window_time < STALL_STEPS as f64 * 1e-13 {
                     rd.stalled += 1;
                     break;
                 }
-            } else {
-                floor_steps = 0;
+                window_time = 0.0;
+                window_steps = 0;
             }
             let h = h.max(1e-14);
             let st = self.process.step(theta, h, g);

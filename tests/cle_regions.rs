@@ -156,7 +156,7 @@ fn kappa_three_loops_do_not_cross_or_touch_each_other() {
 /// the exploration tree; quoted from memory): no two closed loops cross, and at least half of
 /// them come within one spacing of another loop (measured 2026-12-04: κ = 6, ε = 0.2, seeds
 /// 1–3, 21 of 24 loops within two spacings of another; κ = 3, 0 of 14; this seed, 5 of 8 within
-/// one spacing).
+/// one spacing; with the step control of the second session of 2026-12-04, 2 of 3).
 #[test]
 fn kappa_six_closed_loops_touch_but_do_not_cross() {
     let eps = 0.3;

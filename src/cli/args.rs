@@ -95,9 +95,9 @@ pub enum Command {
     /// target moves with the loop being traced until it closes. First version: some loops (at
     /// ε = 0.2, seeds 1–3: 3 of 91 for κ ≥ 4, 4 of 18 at κ = 3) do not return to their start in the
     /// discrete chain; they are kept in the data with "closed": false and not drawn (see the
-    /// README). The loops are estimates at a stated resolution: trace points
-    /// about --min-size/6 apart, and a loop whose interior has no point farther than
-    /// --min-size/8 from the trace can be missed.
+    /// README). The loops are estimates at a stated resolution: trace points at most about
+    /// 1.5 × --spacing apart (default --min-size/6; most gaps are far smaller), and a loop
+    /// whose interior has no point farther than --min-size/8 from the trace can be missed.
     /// Writes loops.json and loops.png to --out (default output/) unless --export-json,
     /// --export-csv or --plot name other files. Cost: see `sleek bench --loops`.
     Loops(LoopsArgs),
@@ -500,7 +500,8 @@ pub struct LoopsArgs {
     /// 1/ε²).
     #[arg(long, default_value = "0.1", value_parser = parse_positive)]
     pub min_size: f64,
-    /// Distance between consecutive trace points, ε/50 ≤ spacing ≤ ε/2 (default ε/6). The
+    /// Resolution of the traces: consecutive points at most about 1.5 spacings apart (a median
+    /// 0.06 spacings), ε/50 ≤ spacing ≤ ε/2 (default ε/6). The
     /// traces carry kinks about one spacing long (the steps' slits start where the driving
     /// point is, not at the last tip), which show at κ ≤ 4: for figures use ε/12 or finer
     /// (measured at κ = 3, ε = 0.2: about 5× the time of ε/6).
