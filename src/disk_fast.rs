@@ -21,9 +21,11 @@
 //! `|z − c| = 1.4 R` (outside D by reflection) and a discrete Fourier transform of length 128
 //! (spectrally accurate for analytic periodic data, aliasing about `1.4^{−128}`; common
 //! practice, e.g. Trefethen & Weideman, SIAM Rev. 2014). A point goes through a block by its
-//! 60-term series when `|z − c| > 1.8 R` (truncation about `1.8^{−61} ≈ 3·10⁻¹⁶` of the block's
-//! scale), otherwise through the block's two halves, down to leaves of eight maps
-//! composed directly. The chordal version of the same idea is [`crate::fast`]; the disk differs
+//! series when `|z − c| > 1.8 R`, otherwise through the block's two halves, down to leaves of
+//! eight maps composed directly. The terms fall off like `(R/|z − c|)^m`, so the series is cut
+//! after `⌈36.8/ln(|z − c|/R)⌉` terms (between 8 and the 60 kept, 60 at the acceptance radius:
+//! truncation about `10⁻¹⁶` of the block's scale; with the series summed by four interleaved
+//! chains the cut no longer changes the measured time, see `DEVELOPERS.md`). The chordal version of the same idea is [`crate::fast`]; the disk differs
 //! in complex coefficients, arcs on the circle instead of real intervals, and the automorphism
 //! factor `M_q`, which is what a fixed Cayley frame could not absorb.
 //!
@@ -149,7 +151,7 @@ impl DiskMap {
     #[inline]
     pub fn inverse(&self, z: Complex64) -> Complex64 {
         match *self {
-            DiskMap::Step { step, rot } => step.inverse_fast(z * rot.conj()),
+            DiskMap::Step { step, rot } => step.inverse_fast_rotated(z, rot),
             DiskMap::Tilted { step, rot } => step.inverse(z * rot.conj()),
             DiskMap::Mobius { c, rot } => {
                 let u = z * rot.conj();
@@ -296,6 +298,7 @@ fn union_opt(a: Option<Arc>, b: Option<Arc>) -> Option<Arc> {
 const LEAF: usize = 8;
 /// Laurent coefficients `a₁ … a_TERMS` kept per block (plus `a₋₁`, `a₀`).
 const TERMS: usize = 60;
+const _: () = assert!(TERMS % 4 == 0, "power_tail takes the terms four at a time");
 /// Samples on the circle `|z − c| = SAMPLE_RADIUS · R` (the DFT length).
 const SAMPLES: usize = 128;
 /// Radius of the sampling circle in units of the arc's chord radius `R`.
@@ -305,6 +308,38 @@ const ACCEPT: f64 = 1.8;
 /// Blocks whose arc's chord radius exceeds this keep no series (their acceptance disk would
 /// cover all of D).
 const MAX_RADIUS: f64 = 1.0;
+
+/// Series terms `a₁ … a_M` needed at `|z − c|² = ratio2 · R²` (ratio2 > ACCEPT²): the terms
+/// fall off like `(R/|z − c|)^m`, so `M = ⌈36.8 / ln(|z − c|/R)⌉` (e^{−36.8} = 10⁻¹⁶), at least
+/// 8 and at most `TERMS`.
+#[inline]
+fn term_count(ratio2: f64) -> usize {
+    let m = (73.6 / ratio2.ln()).ceil();
+    if m.is_finite() {
+        // (A multiple of 4, for `power_tail`.)
+        ((m as usize).clamp(8, TERMS) + 3) & !3
+    } else {
+        TERMS
+    }
+}
+
+/// `Σ_i c_i v^{i+1}` with four interleaved Horner chains in `v⁴` (`c.len()` a multiple of 4):
+/// a series evaluation is a chain of dependent multiply-adds, and four independent ones run
+/// about four times as fast on a pipelined processor (Estrin's idea; common practice).
+#[inline]
+fn power_tail(c: &[Complex64], v: Complex64) -> Complex64 {
+    let v2 = v * v;
+    let v4 = v2 * v2;
+    let zero = Complex64::new(0.0, 0.0);
+    let (mut p0, mut p1, mut p2, mut p3) = (zero, zero, zero, zero);
+    for q in c.chunks_exact(4).rev() {
+        p0 = p0 * v4 + q[0];
+        p1 = p1 * v4 + q[1];
+        p2 = p2 * v4 + q[2];
+        p3 = p3 * v4 + q[3];
+    }
+    v * (p0 + v * p1 + v2 * (p2 + v * p3))
+}
 
 #[derive(Debug, Clone)]
 struct Node {
@@ -488,35 +523,65 @@ impl DiskChain {
     /// `F_B(z)` for block `(level, k)`; `own` is the node itself when it is already stored (its
     /// series may then be used), `None` while it is being built (its halves are used).
     fn apply_block(&self, level: usize, k: usize, z: Complex64, own: Option<&Node>) -> Complex64 {
+        self.apply_block_lanes(level, k, [z], own)[0]
+    }
+
+    /// [`DiskChain::apply_block`] at `L` points in lockstep while they take the same path
+    /// through the tree (each lane's arithmetic is the one-point arithmetic).
+    fn apply_block_lanes<const L: usize>(
+        &self,
+        level: usize,
+        k: usize,
+        z: [Complex64; L],
+        own: Option<&Node>,
+    ) -> [Complex64; L] {
         if let Some(n) = own {
             if n.has_series {
-                let w = z - n.centre;
-                if w.norm() > ACCEPT * n.radius {
+                let w = z.map(|z| z - n.centre);
+                let accept = ACCEPT * n.radius;
+                let far = w.map(|w| w.norm_sqr() > accept * accept);
+                if far.iter().all(|&f| f) {
                     // Coefficients are stored scaled by the sampling radius r (`b_m = a_m r^{−m}`),
                     // so the series is a polynomial in `r/(z − c)`, of modulus below
                     // SAMPLE_RADIUS/ACCEPT: no powers of a tiny arc underflow.
                     let r = SAMPLE_RADIUS * n.radius;
-                    let v = r / w;
-                    let mut s = Complex64::new(0.0, 0.0);
-                    for bm in n.coeffs[2..].iter().rev() {
-                        s = (s + bm) * v;
+                    let v = w.map(|w| r / w);
+                    // Its terms fall off like (R/|z − c|)^m: the first `terms` of them reach
+                    // 10⁻¹⁶ (e^{−36.8}) of the block's scale at the lane nearest the arc.
+                    let near = w.iter().map(|w| w.norm_sqr()).fold(f64::INFINITY, f64::min);
+                    let terms = term_count(near / (n.radius * n.radius));
+                    let tail = &n.coeffs[2..2 + terms];
+                    let mut out = [Complex64::new(0.0, 0.0); L];
+                    for j in 0..L {
+                        let h = n.coeffs[0] * (w[j] / r) + n.coeffs[1] + power_tail(tail, v[j]);
+                        out[j] = (h + n.q) / (1.0 + n.q.conj() * h);
                     }
-                    let h = n.coeffs[0] * (w / r) + n.coeffs[1] + s;
-                    return (h + n.q) / (1.0 + n.q.conj() * h);
+                    return out;
+                }
+                if L > 1 && far.iter().any(|&f| f) {
+                    // The lanes part: each goes its own way.
+                    let mut out = z;
+                    for o in out.iter_mut() {
+                        *o = self.apply_block_lanes(level, k, [*o], own)[0];
+                    }
+                    return out;
                 }
             }
         }
         if level == 0 {
             let start = k * LEAF;
-            return self.maps[start..start + LEAF]
-                .iter()
-                .rev()
-                .fold(z, |z, m| m.inverse(z));
+            let mut z = z;
+            for m in self.maps[start..start + LEAF].iter().rev() {
+                for z in z.iter_mut() {
+                    *z = m.inverse(*z);
+                }
+            }
+            return z;
         }
         let second = &self.levels[level - 1][2 * k + 1];
-        let z = self.apply_block(level - 1, 2 * k + 1, z, Some(second));
+        let z = self.apply_block_lanes(level - 1, 2 * k + 1, z, Some(second));
         let first = &self.levels[level - 1][2 * k];
-        self.apply_block(level - 1, 2 * k, z, Some(first))
+        self.apply_block_lanes(level - 1, 2 * k, z, Some(first))
     }
 
     /// `F_1 ∘ … ∘ F_m (z)`: a point of frame `m` (after the first `m` maps) taken back to frame 0,
@@ -524,12 +589,25 @@ impl DiskChain {
     ///
     /// `m` is clamped to the chain's length.
     pub fn apply_prefix(&self, m: usize, z: Complex64) -> Complex64 {
+        self.apply_prefix_lanes(m, [z])[0]
+    }
+
+    /// [`DiskChain::apply_prefix`] at `L` points at once, with the same values to the last bit:
+    /// the lanes go through the tree together while they take the same path, so that their
+    /// independent chains of operations overlap in the processor.
+    pub fn apply_prefix_lanes<const L: usize>(
+        &self,
+        m: usize,
+        z: [Complex64; L],
+    ) -> [Complex64; L] {
         let m = m.min(self.maps.len());
         let leaves = m / LEAF;
-        let mut z = self.maps[leaves * LEAF..m]
-            .iter()
-            .rev()
-            .fold(z, |z, s| s.inverse(z));
+        let mut z = z;
+        for s in self.maps[leaves * LEAF..m].iter().rev() {
+            for z in z.iter_mut() {
+                *z = s.inverse(*z);
+            }
+        }
         // The complete leaves [0, leaves) as aligned dyadic blocks, the latest first.
         let mut rest = leaves;
         let mut level = 0;
@@ -537,7 +615,7 @@ impl DiskChain {
             if rest & 1 == 1 {
                 let k = rest - 1;
                 let node = &self.levels[level][k];
-                z = self.apply_block(level, k, z, Some(node));
+                z = self.apply_block_lanes(level, k, z, Some(node));
                 rest -= 1;
             }
             rest >>= 1;

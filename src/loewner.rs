@@ -233,6 +233,26 @@ impl ChordalStep {
         }
     }
 
+    /// The same map as [`ChordalStep::forward`], with the vertical slit's square root taken by
+    /// the algebraic formula (the same principal branch and the same choice of sign): equal up
+    /// to rounding, several times cheaper (the polar form's `hypot`, `atan2` and `sincos` were
+    /// most of the cost of mapping points forward through a long chain).
+    #[inline]
+    pub fn forward_fast(&self, z: Complex64) -> Complex64 {
+        match self.shape {
+            Shape::Vertical { w, a } => {
+                let z = clamp_upper(z);
+                let v = z - w;
+                let mut s = crate::geozip::csqrt(v * v + a * a);
+                if s.im < 0.0 || (s.im == 0.0 && v.re < 0.0) {
+                    s = -s;
+                }
+                clamp_upper(w + s)
+            }
+            Shape::Tilted { .. } => self.forward(z),
+        }
+    }
+
     /// The inverse map and its complex derivative `F_k'(w)`.
     #[inline]
     pub fn inverse_with_derivative(&self, w: Complex64) -> (Complex64, Complex64) {

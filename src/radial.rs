@@ -37,6 +37,8 @@ pub struct RadialStep {
     rot: Complex64,
     chordal: ChordalStep,
     dilation: f64,
+    /// `1/dilation` (multiplications on the inverse's path instead of divisions).
+    inv_dilation: f64,
 }
 
 impl RadialStep {
@@ -50,6 +52,7 @@ impl RadialStep {
             rot: Complex64::from_polar(1.0, xi),
             chordal: ChordalStep::vertical(0.0, s),
             dilation: (0.5 * dt).exp(),
+            inv_dilation: (-0.5 * dt).exp(),
         }
     }
 
@@ -114,8 +117,26 @@ impl RadialStep {
     /// ([`crate::loewner::ChordalStep::inverse_fast`]): equal up to rounding, cheaper.
     #[inline]
     pub fn inverse_fast(&self, z: Complex64) -> Complex64 {
-        let eta = cayley(z / self.rot) / self.dilation;
+        self.inverse_fast_rotated(z, Complex64::new(1.0, 0.0))
+    }
+
+    /// `inverse_fast(z · conj(pre))` for `|pre| = 1`, with the two rotations merged (a chain's
+    /// map is a step followed by a rotation) and multiplications by `e^{−iξ}` and
+    /// `e^{−Δt/2}` instead of divisions: equal to [`RadialStep::inverse`] up to rounding.
+    #[inline]
+    pub fn inverse_fast_rotated(&self, z: Complex64, pre: Complex64) -> Complex64 {
+        let r = (self.rot * pre).conj();
+        let eta = cayley(z * r) * self.inv_dilation;
         cayley_inv(self.chordal.inverse_fast(eta)) * self.rot
+    }
+
+    /// [`RadialStep::forward`] with the algebraic square root
+    /// ([`crate::loewner::ChordalStep::forward_fast`]): equal up to rounding, cheaper.
+    #[inline]
+    pub fn forward_fast(&self, z: Complex64) -> Complex64 {
+        let zeta = cayley(z * self.rot.conj());
+        let out = self.chordal.forward_fast(zeta) * self.dilation;
+        cayley_inv(out) * self.rot
     }
 }
 

@@ -371,6 +371,12 @@ impl PlaneMap {
             PlaneMap::Zip(z) => z.from_disk(w),
         }
     }
+    fn to_plane_lanes<const L: usize>(&self, w: [Complex64; L]) -> [Complex64; L] {
+        match self {
+            PlaneMap::Disk => w,
+            PlaneMap::Zip(z) => z.from_disk_lanes(w),
+        }
+    }
     fn to_disk(&self, p: Complex64) -> Complex64 {
         match self {
             PlaneMap::Disk => p,
@@ -560,11 +566,21 @@ fn distance_to_polyline(v: &[Complex64], z: Complex64, closed: bool) -> f64 {
 /// The forward map of a chain map at an interior point (steps and automorphisms only).
 fn forward(m: &DiskMap, w: Complex64) -> Complex64 {
     match *m {
-        DiskMap::Step { step, rot } => rot * step.forward(w),
+        DiskMap::Step { step, rot } => rot * step.forward_fast(w),
         DiskMap::Mobius { c, rot } => rot * (w - c) / (1.0 - c.conj() * w),
         DiskMap::Tilted { step, rot } => rot * step.forward_with_derivative(w).0,
         DiskMap::Conjugated { .. } => unreachable!("regions push no conjugated steps"),
     }
+}
+
+/// [`forward`] at `L` points in lockstep (the same values, lane by lane).
+fn forward_lanes<const L: usize>(maps: &[DiskMap], mut w: [Complex64; L]) -> [Complex64; L] {
+    for m in maps {
+        for w in w.iter_mut() {
+            *w = forward(m, *w);
+        }
+    }
+    w
 }
 
 /// Stream number of child `k` of the region with stream `s` (SplitMix64 finaliser of the pair).
@@ -891,43 +907,58 @@ impl RegionSampler {
                     if cands.is_empty() {
                         break;
                     }
-                    for &k in &cands {
-                        if Some(k) == target {
-                            continue;
+                    // Candidates go forward through the chain four at a time (independent
+                    // chains of operations that the processor overlaps), and are then taken in
+                    // order as before (at most three are mapped in vain).
+                    let mut next = 0;
+                    let mut batch: Vec<usize> = Vec::with_capacity(4);
+                    loop {
+                        batch.clear();
+                        while batch.len() < 4 && next < cands.len() {
+                            let k = cands[next];
+                            next += 1;
+                            if Some(k) != target
+                                && !(closing && winding_number(&exc, grid.pts[k]) != 0)
+                            {
+                                batch.push(k);
+                            }
                         }
-                        if closing && winding_number(&exc, grid.pts[k]) != 0 {
-                            continue;
+                        if batch.is_empty() {
+                            break;
                         }
-                        tried += 1;
-                        let mut w = map.to_disk(grid.pts[k]);
-                        for m in chain.maps() {
-                            w = forward(m, w);
+                        let mut images = [Complex64::new(0.0, 0.0); 4];
+                        for (w, &k) in images.iter_mut().zip(&batch) {
+                            *w = map.to_disk(grid.pts[k]);
                         }
-                        if w.norm().is_nan() || w.norm() >= 1.0 - UNREACHED {
-                            // Behind a neck narrower than the frame resolves: left for the
-                            // pass over what remains (a pocket, for 4 < κ < 8).
-                            grid.unreached[k] = true;
-                            rd.unreached_points += 1;
-                            continue;
+                        let images = forward_lanes(chain.maps(), images);
+                        for (&k, &w) in batch.iter().zip(&images) {
+                            tried += 1;
+                            if w.norm().is_nan() || w.norm() >= 1.0 - UNREACHED {
+                                // Behind a neck narrower than the frame resolves: left for the
+                                // pass over what remains (a pocket, for 4 < κ < 8).
+                                grid.unreached[k] = true;
+                                rd.unreached_points += 1;
+                                continue;
+                            }
+                            let (m, new_theta, stretch) = recentre(w, theta);
+                            if TWO_PI - new_theta.abs() < s.retarget_gap {
+                                // The excursion surrounds this point (nearly all the boundary it
+                                // sees is the excursion's inner side): not a target to go to.
+                                continue;
+                            }
+                            if dbg {
+                                hist.push((new_theta, -2.0, theta, w.norm()));
+                            }
+                            tau = carry_near(&m, tau, theta, new_theta);
+                            theta = new_theta;
+                            chain.push(m);
+                            scale /= stretch;
+                            target = Some(k);
+                            target_pt = grid.pts[k];
+                            rd.retargets += 1;
+                            moved = true;
+                            break 'search;
                         }
-                        let (m, new_theta, stretch) = recentre(w, theta);
-                        if TWO_PI - new_theta.abs() < s.retarget_gap {
-                            // The excursion surrounds this point (nearly all the boundary it
-                            // sees is the excursion's inner side): not a target to go to.
-                            continue;
-                        }
-                        if dbg {
-                            hist.push((new_theta, -2.0, theta, w.norm()));
-                        }
-                        tau = carry_near(&m, tau, theta, new_theta);
-                        theta = new_theta;
-                        chain.push(m);
-                        scale /= stretch;
-                        target = Some(k);
-                        target_pt = grid.pts[k];
-                        rd.retargets += 1;
-                        moved = true;
-                        break 'search;
                     }
                     if tried > 400 || cands.len() < want {
                         break;
@@ -970,17 +1001,21 @@ impl RegionSampler {
             // chosen before it is drawn, from the current state only, so the law of θ is
             // untouched. Near the tip the arc's image grows about linearly in h (the map opens
             // the tip's straight angle to a full turn), so a rejected step is shrunk by the
-            // ratio (within [1/16, 1/2]) and the next step starts from 0.9× the prediction;
-            // one side is probed first and the other only if it passes.
+            // ratio (within [1/16, 1/2]) and the next step starts from 0.9× the prediction.
             let tip_now = *trace.last().unwrap_or(&start);
             let n = chain.len();
-            let probe = |a: f64| map.to_plane(chain.apply_prefix(n, Complex64::from_polar(1.0, a)));
+            // (Both sides in one pass: the two evaluations overlap in the processor.)
+            let probe = |a: f64, b: f64| {
+                let w = [Complex64::from_polar(1.0, a), Complex64::from_polar(1.0, b)];
+                map.to_plane_lanes(chain.apply_prefix_lanes(n, w))
+            };
             let room = s.probe_room * s.spacing;
             while h > 1e-14 {
                 let r = PROBE_REACH * (kappa * h).sqrt();
-                let mut far = (probe(theta + r) - tip_now).norm();
+                let [p, q] = probe(theta + r, theta - r);
+                let mut far = (p - tip_now).norm();
                 if far <= room {
-                    far = far.max((probe(theta - r) - tip_now).norm());
+                    far = far.max((q - tip_now).norm());
                 }
                 if far <= room {
                     h_guess = h * (0.9 * room / far.max(1e-300)).min(4.0);

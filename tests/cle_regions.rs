@@ -123,59 +123,57 @@ fn nearest_other_loop(closed: &[&CleLoop], spacing: f64) -> Vec<f64> {
         .collect()
 }
 
+/// Closed loops of seeds `seeds` pooled: (loops, loops within one spacing of another of their
+/// configuration, within two), after checking the structure and that no two cross.
+fn pooled_nearness(
+    kappa: f64,
+    eps: f64,
+    seeds: std::ops::RangeInclusive<u64>,
+) -> (usize, usize, usize) {
+    let spacing = RegionSettings::defaults(eps).spacing;
+    let (mut n, mut one, mut two) = (0, 0, 0);
+    for seed in seeds {
+        let c = sample(kappa, eps, seed);
+        check_structure(&c, eps);
+        let closed: Vec<&CleLoop> = c.loops.iter().filter(|l| l.closed).collect();
+        assert_no_two_cross(&closed);
+        let near = nearest_other_loop(&closed, spacing);
+        n += closed.len();
+        one += near.iter().filter(|&&d| d <= 1.0).count();
+        two += near.iter().filter(|&&d| d <= 2.0).count();
+    }
+    (n, one, two)
+}
+
 /// For κ ≤ 4 the loops are simple and pairwise disjoint (Rohde & Schramm, Ann. Math. 2005 for
 /// the simple SLE_κ traces; Sheffield & Werner, Ann. Math. 2012 for disjointness of CLE_κ
-/// loops): no two closed loops cross, and few come within a spacing of another (the touching
-/// test below finds most κ = 6 loops that close). (Their own polylines are not always simple
-/// at the spacing: the discrete trace can cross itself where a step's slit attaches beside the
-/// previous tip; that is not checked here.) ε = 0.2: at 0.3 a CLE_3 configuration has one or
-/// two loops (E[−log CR] = 21.8 at κ = 3, Schramm, Sheffield & Wilson 2009).
+/// loops): no two closed loops cross, and few come within a spacing of another. Single
+/// configurations change with the last bit of rounding, so eight are pooled. Measured
+/// (2026-12-05, ε = 0.2, seeds 1–8): 5 of 41 closed loops within one spacing of another, a
+/// per-configuration mean fraction 0.09 with standard error 0.06; the bound 0.3 is 3.5 s.e. above.
+/// (Their own polylines are not always simple at the spacing; that is not checked here.)
 #[test]
 fn kappa_three_loops_do_not_cross_or_touch_each_other() {
-    let eps = 0.2;
-    let c = sample(3.0, eps, 2);
-    check_structure(&c, eps);
-    let closed: Vec<&CleLoop> = c.loops.iter().filter(|l| l.closed).collect();
+    let (n, one, _) = pooled_nearness(3.0, 0.2, 1..=8);
+    assert!(n >= 20, "{n} closed loops at κ = 3, seeds 1–8");
     assert!(
-        closed.len() >= 3,
-        "{} closed loops at κ = 3, seed 2",
-        closed.len()
-    );
-    assert_no_two_cross(&closed);
-    let spacing = RegionSettings::defaults(eps).spacing;
-    let near = nearest_other_loop(&closed, spacing);
-    let touching = near.iter().filter(|&&d| d <= 1.0).count();
-    assert!(
-        4 * touching <= closed.len(),
-        "{touching} of {} κ = 3 loops within a spacing of another: {near:?}",
-        closed.len()
+        10 * one <= 3 * n,
+        "{one} of {n} κ = 3 loops within a spacing of another"
     );
 }
 
 /// For 4 < κ < 8 the loops touch each other but do not cross (Sheffield, Duke Math. J. 2009,
-/// the exploration tree; quoted from memory): no two closed loops cross, and at least half of
-/// them come within one spacing of another loop (measured 2026-12-04: κ = 6, ε = 0.2, seeds
-/// 1–3, 21 of 24 loops within two spacings of another; κ = 3, 0 of 14; this seed, 5 of 8 within
-/// one spacing; with the step control of the second session of 2026-12-04, 2 of 3).
+/// the exploration tree; quoted from memory): no two closed loops cross, and most come within
+/// two spacings of another loop. Measured (2026-12-05, ε = 0.3, seeds 1–12): 36 of 50 within
+/// two spacings, a per-configuration mean fraction 0.73 with standard error 0.09; the bound 0.4
+/// is 3.7 s.e. below (κ = 3 above: 0.09 within one spacing).
 #[test]
 fn kappa_six_closed_loops_touch_but_do_not_cross() {
-    let eps = 0.3;
-    let c = sample(6.0, eps, 1);
-    check_structure(&c, eps);
-    let closed: Vec<&CleLoop> = c.loops.iter().filter(|l| l.closed).collect();
+    let (n, _, two) = pooled_nearness(6.0, 0.3, 1..=12);
+    assert!(n >= 20, "{n} closed loops at κ = 6, seeds 1–12");
     assert!(
-        closed.len() >= 3,
-        "{} closed loops at κ = 6, seed 1",
-        closed.len()
-    );
-    assert_no_two_cross(&closed);
-    let spacing = RegionSettings::defaults(eps).spacing;
-    let near = nearest_other_loop(&closed, spacing);
-    let touching = near.iter().filter(|&&d| d <= 1.0).count();
-    assert!(
-        2 * touching >= closed.len(),
-        "only {touching} of {} κ = 6 loops within a spacing of another: {near:?}",
-        closed.len()
+        5 * two >= 2 * n,
+        "only {two} of {n} κ = 6 loops within two spacings of another"
     );
 }
 

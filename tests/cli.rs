@@ -573,7 +573,7 @@ fn loops_exports_have_the_documented_layout() {
         "--min-size",
         "0.4",
         "--seed",
-        "5",
+        "6",
         "--at",
         "0,0",
         "--quiet",
@@ -595,7 +595,7 @@ fn loops_exports_have_the_documented_layout() {
     assert!(out.contains("resolution: spacing"), "{out}");
     let v: serde_json::Value = serde_json::from_slice(&std::fs::read(&json).unwrap()).unwrap();
     assert_eq!(v["kappa"], 6.0);
-    assert_eq!(v["seed"], 5);
+    assert_eq!(v["seed"], 6);
     assert_eq!(v["min_size"], 0.4);
     assert!(v["settings"]["spacing"].as_f64().unwrap() > 0.0);
     let loops = v["loops"].as_array().unwrap();
@@ -635,7 +635,9 @@ fn loops_exports_have_the_documented_layout() {
     // conformal radius is monotone in the domain (Schwarz lemma; common practice).
     assert_eq!(v["around_marked"], summary["marked"]);
     let around = summary["marked"][0]["loops"].as_array().unwrap();
-    // (This seed has one closed loop around 0, with T = 2.5: the check below is not vacuous.)
+    // (This seed has one closed loop around 0, with T = 2.47: the check below is not vacuous;
+    // configurations change with the last bit of rounding, so a change of the numerics can
+    // call for another seed.)
     assert!(around.iter().any(|l| l["t"].is_f64()), "{around:?}");
     for l in around {
         assert!(l["id"].is_u64() && l["depth"].as_u64().unwrap() >= 1);
