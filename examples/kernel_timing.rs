@@ -5,7 +5,8 @@
 //!    its trace points and at boundary points next to the tip (the step control's probe), one
 //!    point at a time and two at once;
 //! 2. the geodesic zipper's inverse ([`sleek::geozip::GeodesicZipper::from_disk`]) on a
-//!    2000-vertex polygon, one point and two at once;
+//!    2000-vertex polygon, through every map and through the block tree, inside the disk and
+//!    on its circle, one point and two at once;
 //! 3. interior points mapped forward through every radial step (a change of target), with
 //!    the polar-form square root and with the algebraic one.
 //!
@@ -40,11 +41,11 @@ fn report(label: &str, evaluations: usize, maps: Option<f64>, secs: f64) {
     let per = secs / evaluations as f64;
     match maps {
         Some(m) => println!(
-            "{label:<44} {:>9.2} µs each, {:>6.1} ns per map",
+            "{label:<50} {:>9.2} µs each, {:>6.1} ns per map",
             1e6 * per,
             1e9 * per / m
         ),
-        None => println!("{label:<44} {:>9.2} µs each", 1e6 * per),
+        None => println!("{label:<50} {:>9.2} µs each", 1e6 * per),
     }
 }
 
@@ -107,30 +108,42 @@ fn main() {
             Complex64::from_polar(1.0 + 0.3 * (7.0 * p).sin() + 0.1 * (23.0 * p).sin(), p)
         })
         .collect();
-    let zip = GeodesicZipper::new(&poly, Complex64::new(0.0, 0.0)).expect("a star polygon");
-    let pts: Vec<Complex64> = (0..20_000)
+    let tree = GeodesicZipper::new(&poly, Complex64::new(0.0, 0.0)).expect("a star polygon");
+    let direct = tree.without_tree();
+    let inner: Vec<Complex64> = (0..20_000)
         .map(|_| Complex64::from_polar(0.99 * g.next().sqrt(), 2.0 * PI * g.next()))
         .collect();
-    let maps = zip.len() as f64;
-    let t = Instant::now();
-    for &w in &pts {
-        sink += zip.from_disk(w);
+    let edge: Vec<Complex64> = (0..20_000)
+        .map(|_| Complex64::from_polar(1.0, 2.0 * PI * g.next()))
+        .collect();
+    let maps = tree.len() as f64;
+    for (zip, how) in [(&direct, "every map"), (&tree, "block tree")] {
+        for (pts, wh) in [(&inner, "|w| < 0.99"), (&edge, "|w| = 1")] {
+            let t = Instant::now();
+            for &w in pts.iter() {
+                sink += zip.from_disk(w);
+            }
+            let one = t.elapsed().as_secs_f64();
+            report(
+                &format!("zipper, {how}, {wh}, one at a time"),
+                pts.len(),
+                Some(maps),
+                one,
+            );
+            let t = Instant::now();
+            for w in pts.chunks_exact(2) {
+                let [p, q] = zip.from_disk_lanes([w[0], w[1]]);
+                sink += p + q;
+            }
+            let two = t.elapsed().as_secs_f64();
+            report(
+                &format!("zipper, {how}, {wh}, in pairs"),
+                pts.len(),
+                Some(maps),
+                two,
+            );
+        }
     }
-    let one = t.elapsed().as_secs_f64();
-    report("zipper: a point, one at a time", pts.len(), Some(maps), one);
-    let t = Instant::now();
-    for w in pts.chunks_exact(2) {
-        let [p, q] = zip.from_disk_lanes([w[0], w[1]]);
-        sink += p + q;
-    }
-    let two = t.elapsed().as_secs_f64();
-    report(
-        "zipper: a point, in pairs (two lanes)",
-        pts.len(),
-        Some(maps),
-        two,
-    );
-    println!("    (two lanes / one at a time: {:.2})", two / one);
 
     // 3. Forward through every step, as a change of target does.
     let steps: Vec<RadialStep> = xis.iter().map(|&x| RadialStep::new(x, h)).collect();

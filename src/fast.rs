@@ -91,26 +91,42 @@ struct Node {
     children: Option<(usize, usize)>,
 }
 
-/// A block tree over the steps of a chordal chain (see the module docs).
+/// A block tree over the steps of a chordal chain (see the module docs); the steps are
+/// borrowed ([`BlockTree::new`]) or owned ([`BlockTree::owned`]).
 #[derive(Debug, Clone)]
-pub struct BlockTree<'a, S: HalfPlaneStep = ChordalStep> {
-    steps: &'a [S],
+pub struct BlockTree<'a, S: HalfPlaneStep + Clone = ChordalStep> {
+    steps: std::borrow::Cow<'a, [S]>,
     nodes: Vec<Node>,
     root: Option<usize>,
 }
 
-impl<'a, S: HalfPlaneStep> BlockTree<'a, S> {
+impl<'a, S: HalfPlaneStep + Clone> BlockTree<'a, S> {
     /// Build the tree over `steps` (in time order).
     pub fn new(steps: &'a [S]) -> Self {
+        Self::with(std::borrow::Cow::Borrowed(steps))
+    }
+
+    /// Build the tree over `steps`, which it keeps.
+    pub fn owned(steps: Vec<S>) -> BlockTree<'static, S> {
+        BlockTree::with(std::borrow::Cow::Owned(steps))
+    }
+
+    fn with(steps: std::borrow::Cow<'a, [S]>) -> Self {
+        let n = steps.len();
         let mut t = BlockTree {
             steps,
-            nodes: Vec::with_capacity(2 * steps.len() / LEAF + 2),
+            nodes: Vec::with_capacity(2 * n / LEAF + 2),
             root: None,
         };
-        if !steps.is_empty() {
-            t.root = Some(t.build(0, steps.len()));
+        if n > 0 {
+            t.root = Some(t.build(0, n));
         }
         t
+    }
+
+    /// The steps, in time order.
+    pub fn steps(&self) -> &[S] {
+        &self.steps
     }
 
     /// Number of blocks (for memory accounting).

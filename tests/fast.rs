@@ -79,6 +79,7 @@ fn prefix_maps_at_hard_points() {
 /// A step that is not normalised at ∞: a chordal step followed by a real dilation and shift
 /// (`w ↦ λw + μ`), as steps of other chains seen in a half-plane frame are. The block tree must
 /// learn the linear and constant terms of its series and still agree with direct composition.
+#[derive(Clone)]
 struct ScaledStep {
     inner: sleek::loewner::ChordalStep,
     lambda: f64,
