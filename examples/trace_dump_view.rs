@@ -31,8 +31,15 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
             continue;
         }
 
-        let id: u64 = v[0].parse()?;
-        let p = (v[1].parse::<f64>()?, v[2].parse::<f64>()?);
+        // (Lines written by two threads at once can be garbled: skipped.)
+        let (Ok(id), Ok(x), Ok(y)) = (
+            v[0].parse::<u64>(),
+            v[1].parse::<f64>(),
+            v[2].parse::<f64>(),
+        ) else {
+            continue;
+        };
+        let p = (x, y);
         match branches.last_mut() {
             Some(b) if b.0 == id => b.1.push(p),
             _ => branches.push((id, vec![p])),
