@@ -9,7 +9,8 @@
 //! for t ≤ log((1 − |z|²)/ε), where no loop around z is lost to the size cut-off (a loop with
 //! CR(z, U) ≥ ε has diameter ≥ ε). The points of one configuration are dependent, so the
 //! standard error is that of the per-configuration means (configurations are independent).
-//! Environment: `H_MAX`, `SPACING_DIV` and `TILTED` change the settings as in `regions_dev`, `PX_DIV`
+//! Environment: `H_MAX`, `SPACING_DIV` and `TILTED` change the settings as in `regions_dev`,
+//! `GRID` and `STOP_ROOM` set the target grid's spacing and the stop room (absolute), `PX_DIV`
 //! the raster pixel of the conformal radius (default spacing/8: at spacing/4 the same 24 κ = 6
 //! configurations gave 3 points with T ≤ 1.25 instead of 5, see DEVELOPERS.md); `SHOW_T_BELOW=t` lists the
 //! points with T ≤ t (configuration index and point) on stderr.
@@ -46,6 +47,12 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
     }
     if std::env::var("TILTED").is_ok() {
         settings.tilted = Some(true);
+    }
+    if let Ok(d) = std::env::var("GRID") {
+        settings.grid = d.parse::<f64>()?;
+    }
+    if let Ok(d) = std::env::var("STOP_ROOM") {
+        settings.stop_room = d.parse::<f64>()?;
     }
     if let Ok(d) = std::env::var("H_MAX") {
         settings.h_max = d.parse::<f64>()?;

@@ -83,6 +83,12 @@
 //!   the fjords the stalled regions dropped are now explored, with longer chains). It does not
 //!   fix the SSW check (κ = 6, ε = 0.12, 16 configurations, seed 3: 0 of 208 points with
 //!   T ≤ 1.6, against 1 without it and 9.8 expected) and costs 3–4× the time, so it is off.
+//! * (Development switch `SLEEK_FULL_REDO=1`, off by default.) For 4 < κ < 8 a visit of 2π
+//!   is not taken: the target first moves outside the excursion and the step is drawn again.
+//!   It did not fix the SSW check either (same runs: 3 of 208 points, `full_redos`).
+//!   Measured 2026-12-05: the check passes at spacing ε/3.6 and fails at ε/6 for ε = 0.12,
+//!   and fails at ε/10 for ε = 0.2, so the sampler does not yet converge as the steps shrink
+//!   (DEVELOPERS.md).
 //! * When every grid point is covered while a loop is still being traced, the exploration goes
 //!   on towards its last target until that loop closes (at most as many more steps as the
 //!   trace has points, at least 5000; otherwise `stalled`). Dropping it lost whole loops:
@@ -336,6 +342,8 @@ pub struct RegionDiagnostics {
     pub longest_chain: u64,
     /// Changes of target that follow the loop being traced (module docs).
     pub follows: u64,
+    /// Visits of 2π not taken (development switch `SLEEK_FULL_REDO`, off by default).
+    pub full_redos: u64,
     /// Regions whose exploration ended because the frame no longer resolved the tip (steps at
     /// their floor, or a step longer than six spacings).
     pub stalled: u64,
@@ -360,6 +368,7 @@ impl RegionDiagnostics {
         self.failed_interiors += o.failed_interiors;
         self.longest_chain = self.longest_chain.max(o.longest_chain);
         self.follows += o.follows;
+        self.full_redos += o.full_redos;
         self.stalled += o.stalled;
         self.tiny_full += o.tiny_full;
         self.dropped_points += o.dropped_points;
@@ -897,6 +906,8 @@ impl RegionSampler {
         // cost 3–4× the time.
         let follow_stale = std::env::var("SLEEK_FOLLOW_STALE").is_ok();
         let rescue_on = std::env::var("SLEEK_RESCUE").is_ok();
+        let full_redo = std::env::var("SLEEK_FULL_REDO").is_ok() && kappa > 4.0;
+        let mut force_close = false;
         let mut hist: Vec<(f64, f64, f64, f64)> = Vec::new();
         // Plane length per unit of frame length at the tip (estimated from the last step).
         let mut scale = 1.0f64;
@@ -964,7 +975,8 @@ impl RegionSampler {
             };
             // A loop about to close around the target with no room between the tip and the
             // loop's start: the target moves to a grid point outside the loop.
-            let closing = near_full && !followed && !no_outside;
+            let closing = (near_full || force_close) && !followed && !no_outside;
+            force_close = false;
             if (stale && finishing.is_none()) || closing {
                 let exc: Vec<Complex64> = if closing {
                     trace[exc_start..].to_vec()
@@ -1247,6 +1259,17 @@ impl RegionSampler {
             // angle 0, the new force point, and θ continues from its value after the visit
             // (a time shift of at most one step, the scheme's own resolution).
             let full = st.visit == EndVisit::Full;
+            if full && full_redo && !no_outside && finishing.is_none() {
+                // (Development switch `SLEEK_FULL_REDO`.) For 4 < κ < 8 a visit of 2π is the
+                // tip touching the inner side of its own excursion with the target in the
+                // pocket so closed; the loop goes on outside. The visit is not taken: the
+                // target moves outside the excursion first (the closing search) and the step
+                // is drawn again in that frame.
+                force_close = true;
+                rd.full_redos += 1;
+                diag.steps += 1;
+                continue;
+            }
             let sign = if full {
                 if theta < 0.0 {
                     -1.0
