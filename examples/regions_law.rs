@@ -13,12 +13,14 @@
 //! `GRID` and `STOP_ROOM` set the target grid's spacing and the stop room (absolute), `PX_DIV`
 //! the raster pixel of the conformal radius (default spacing/8: at spacing/4 the same 24 κ = 6
 //! configurations gave 3 points with T ≤ 1.25 instead of 5, see DEVELOPERS.md); `SHOW_T_BELOW=t` lists the
-//! points with T ≤ t (configuration index and point) on stderr.
+//! points with T ≤ t (configuration index and point) on stderr; `ONLY=i` samples configuration
+//! i alone and `FIGURE=file.png` draws it.
 
 use num_complex::Complex64;
 use rayon::prelude::*;
 use sleek::laws::CleLaw;
-use sleek::regions::{outermost_log_cr_at, RegionSampler, RegionSettings};
+use sleek::plot_loops::{DrawnLoop, LoopFigure, LoopStyle};
+use sleek::regions::{outermost_log_cr_at, outermost_loop_at, RegionSampler, RegionSettings};
 use std::time::Instant;
 
 /// One configuration: for each t, (points with T ≤ t, points where t is observable); then the
@@ -76,7 +78,13 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
     }
     let ts = [0.25, 0.5, 0.75, 1.0, 1.25, 1.6, 2.0, 2.3, 3.0];
     let t0 = Instant::now();
-    let rows: Vec<Row> = (0..n)
+    // (`ONLY=i` samples configuration i alone, to look at one configuration again.)
+    let only: Option<u64> = std::env::var("ONLY").ok().map(|s| s.parse()).transpose()?;
+    let indices: Vec<u64> = match only {
+        Some(i) => vec![i],
+        None => (0..n).collect(),
+    };
+    let rows: Vec<Row> = indices
         .into_par_iter()
         .map(|i| {
             let (c, rd) = sampler.sample(seed, i);
@@ -98,6 +106,33 @@ fn run() -> Result<(), Box<dyn std::error::Error>> {
                             counts[k].0 += 1;
                         }
                     }
+                }
+            }
+            if let (Some(_), Ok(path)) = (only, std::env::var("FIGURE")) {
+                // (The configuration, the loops around the grid points drawn thicker.)
+                let around: Vec<usize> = grid
+                    .iter()
+                    .filter_map(|&z| outermost_loop_at(&c, z).map(|l| l.id))
+                    .collect();
+                let fig = LoopFigure {
+                    title: format!(
+                        "regions_law: kappa {kappa}, eps {eps}, seed {seed}, configuration {i}"
+                    ),
+                    caption: vec!["thick: the outermost loop around a grid point".into()],
+                    loops: c
+                        .loops
+                        .iter()
+                        .map(|l| DrawnLoop {
+                            points: l.points.iter().map(|p| (p.re, p.im)).collect(),
+                            depth: l.depth,
+                            highlighted: around.contains(&l.id),
+                        })
+                        .collect(),
+                    marked: grid.iter().map(|z| (z.re, z.im)).collect(),
+                    style: LoopStyle::Outline,
+                };
+                if let Err(e) = fig.draw(std::path::Path::new(&path)) {
+                    eprintln!("figure: {e}");
                 }
             }
             (counts, rd.stalled as u32, rd.tiny_full as u32)

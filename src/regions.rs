@@ -89,6 +89,14 @@
 //!   Measured 2026-12-05: the check passes at spacing ε/3.6 and fails at ε/6 for ε = 0.12,
 //!   and fails at ε/10 for ε = 0.2, so the sampler does not yet converge as the steps shrink
 //!   (DEVELOPERS.md).
+//! * (Development switch `SLEEK_KEEP_LOOP=1`, off by default.) For κ ≥ 4, while a loop is
+//!   being traced, a new grid target from which the loop's inner side has harmonic angle under
+//!   `retarget_gap` (a point behind the contact that cut the loop's start off) is taken only
+//!   if no other candidate is found, so that a change of target does not abandon the loop.
+//!   It does not fix the SSW check at spacing 0.02 (DEVELOPERS.md, 2026-12-06): with
+//!   `SLEEK_FOLLOW_STALE`, κ = 6, ε = 0.12, seed 3, 3 of 208 points with T ≤ 1.6 against 9.8;
+//!   with `SLEEK_RESCUE` as well, 14 of 208 at seed 3 (8 of them in one configuration) but 0
+//!   of 208 at seed 4, at about 6× the time.
 //! * When every grid point is covered while a loop is still being traced, the exploration goes
 //!   on towards its last target until that loop closes (at most as many more steps as the
 //!   trace has points, at least 5000; otherwise `stalled`). Dropping it lost whole loops:
@@ -907,6 +915,7 @@ impl RegionSampler {
         let follow_stale = std::env::var("SLEEK_FOLLOW_STALE").is_ok();
         let rescue_on = std::env::var("SLEEK_RESCUE").is_ok();
         let full_redo = std::env::var("SLEEK_FULL_REDO").is_ok() && kappa > 4.0;
+        let keep_loop = std::env::var("SLEEK_KEEP_LOOP").is_ok() && kappa >= 4.0;
         let mut force_close = false;
         let mut hist: Vec<(f64, f64, f64, f64)> = Vec::new();
         // Plane length per unit of frame length at the tip (estimated from the last step).
@@ -986,6 +995,10 @@ impl RegionSampler {
                 let mut moved = false;
                 let mut tried = 0;
                 let mut want = 8;
+                // (With `keep_loop`, while a loop is being traced, a point that barely sees
+                // its inner side is behind the contact that cut the loop's start off: kept
+                // only as a last resort.)
+                let mut fallback: Option<(usize, DiskMap, f64, f64)> = None;
                 'search: loop {
                     let cands = grid.nearest_open(tip, s.stop_room, want);
                     if cands.is_empty() {
@@ -1030,6 +1043,12 @@ impl RegionSampler {
                                 // sees is the excursion's inner side): not a target to go to.
                                 continue;
                             }
+                            if keep_loop && in_loop && new_theta.abs() < s.retarget_gap {
+                                if fallback.is_none() {
+                                    fallback = Some((k, m, new_theta, stretch));
+                                }
+                                continue;
+                            }
                             if dbg {
                                 hist.push((new_theta, -2.0, theta, w.norm()));
                             }
@@ -1048,6 +1067,16 @@ impl RegionSampler {
                         break;
                     }
                     want *= 4;
+                }
+                if let (false, Some((k, m, new_theta, stretch))) = (moved, fallback) {
+                    tau = carry_near(&m, tau, theta, new_theta);
+                    theta = new_theta;
+                    chain.push(m);
+                    scale /= stretch;
+                    target = Some(k);
+                    target_pt = grid.pts[k];
+                    rd.retargets += 1;
+                    moved = true;
                 }
                 if !moved && closing {
                     // Nothing with room outside the loop: let it close around the target
@@ -1301,11 +1330,12 @@ impl RegionSampler {
             rd.closed_around_target += 1;
             if dbg_end {
                 eprintln!(
-                    "region {id} full visit: steps {} exc {} theta {theta:.3} target {:?} tip {:?}",
+                    "region {id} full visit: steps {} exc {} theta {theta:.3} target {:?} no_outside {no_outside} finishing {} h {h:.2e} tip-target {:.2}",
                     diag.steps,
                     trace.len() - exc_start,
                     target,
-                    trace.last()
+                    finishing.is_some(),
+                    (trace[trace.len() - 1] - target_pt).norm() / s.spacing
                 );
             }
             let poly = loop_polyline(&trace, exc_start, end, s.spacing);
