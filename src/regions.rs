@@ -999,6 +999,7 @@ impl RegionSampler {
                 // its inner side is behind the contact that cut the loop's start off: kept
                 // only as a last resort.)
                 let mut fallback: Option<(usize, DiskMap, f64, f64)> = None;
+                let mut chosen: Option<(usize, DiskMap, f64, f64)> = None;
                 'search: loop {
                     let cands = grid.nearest_open(tip, s.stop_room, want);
                     if cands.is_empty() {
@@ -1052,14 +1053,7 @@ impl RegionSampler {
                             if dbg {
                                 hist.push((new_theta, -2.0, theta, w.norm()));
                             }
-                            tau = carry_near(&m, tau, theta, new_theta);
-                            theta = new_theta;
-                            chain.push(m);
-                            scale /= stretch;
-                            target = Some(k);
-                            target_pt = grid.pts[k];
-                            rd.retargets += 1;
-                            moved = true;
+                            chosen = Some((k, m, new_theta, stretch));
                             break 'search;
                         }
                     }
@@ -1068,7 +1062,7 @@ impl RegionSampler {
                     }
                     want *= 4;
                 }
-                if let (false, Some((k, m, new_theta, stretch))) = (moved, fallback) {
+                if let Some((k, m, new_theta, stretch)) = chosen.or(fallback) {
                     tau = carry_near(&m, tau, theta, new_theta);
                     theta = new_theta;
                     chain.push(m);
