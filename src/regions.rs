@@ -992,7 +992,6 @@ impl RegionSampler {
                 } else {
                     Vec::new()
                 };
-                let mut moved = false;
                 let mut tried = 0;
                 let mut want = 8;
                 // (With `keep_loop`, while a loop is being traced, a point that barely sees
@@ -1062,7 +1061,8 @@ impl RegionSampler {
                     }
                     want *= 4;
                 }
-                if let Some((k, m, new_theta, stretch)) = chosen.or(fallback) {
+                let moved = chosen.or(fallback);
+                if let Some((k, m, new_theta, stretch)) = moved {
                     tau = carry_near(&m, tau, theta, new_theta);
                     theta = new_theta;
                     chain.push(m);
@@ -1070,8 +1070,8 @@ impl RegionSampler {
                     target = Some(k);
                     target_pt = grid.pts[k];
                     rd.retargets += 1;
-                    moved = true;
                 }
+                let moved = moved.is_some();
                 if !moved && closing {
                     // Nothing with room outside the loop: let it close around the target
                     // (searching again at every step would find nothing new).
